@@ -1,0 +1,204 @@
+"""Ground state of a closed-shell atom: grid choice, SCF, box check and the typed result.
+
+The box radius is chosen from the decay of the outermost orbital, :math:`P(r) \\sim e^{-\\kappa r}`
+with :math:`\\kappa = \\sqrt{2|\\varepsilon_{\\rm HOMO}|}`: the SCF is repeated in a larger box until
+:math:`\\kappa R \\ge` ``BOX_DECAY`` (the orbital has fallen by ~e^-34 ~ 1e-15 at the wall).  A box
+given by the user is kept and a warning is recorded if it is too small.
+"""
+
+from __future__ import annotations
+
+import logging
+import warnings
+from dataclasses import dataclass, field
+
+import numpy as np
+from threadpoolctl import threadpool_limits
+
+from tdhf.errors import ConfigurationError
+from tdhf.potentials import OccupiedShells
+from tdhf.radial.mesh import GridSettings, RadialGrid, build_grid
+from tdhf.scf import ScfSettings, solve_scf
+from tdhf.system import System
+
+__all__ = ["OrbitalResult", "GroundState", "solve_ground_state", "BOX_DECAY"]
+
+logger = logging.getLogger(__name__)
+
+#: Required kappa * R for the outermost orbital (P(R)/P_max ~ e^-BOX_DECAY).
+BOX_DECAY = 34.0
+#: Starting box radius, bohr (neutral atoms and cations); anions start at ANION_R_MAX.
+DEFAULT_R_MAX = 40.0
+ANION_R_MAX = 80.0
+
+
+@dataclass(frozen=True)
+class OrbitalResult:
+    """One occupied subshell: energy and radial moments (atomic units).
+
+    ``mean_r`` etc. are :math:`\\langle r^k \\rangle = \\int P(r)^2 r^k dr` per electron.
+    """
+
+    label: str
+    n: int
+    l: int
+    occupation: int
+    energy: float
+    mean_inverse_r_squared: float
+    mean_inverse_r: float
+    mean_r: float
+    mean_r_squared: float
+
+
+@dataclass(frozen=True)
+class GroundState:
+    """Hartree–Fock ground state (hartree, bohr).
+
+    Energy components: ``kinetic_energy`` T, ``nuclear_attraction_energy``, ``coulomb_energy``
+    (direct e–e), ``exchange_energy`` (negative); ``virial_ratio`` = -V/T (2 for the exact HF
+    solution).  Totals ``mean_r`` etc. are sums over all electrons of :math:`\\langle r^k \\rangle`.
+    ``density_at_nucleus`` is :math:`\\rho(0)` in bohr^-3 and ``cusp_ratio`` is
+    :math:`-\\rho'(0) / (2 Z \\rho(0))`, 1 by Kato's theorem.
+    """
+
+    system: System
+    converged: bool
+    total_energy: float
+    kinetic_energy: float
+    nuclear_attraction_energy: float
+    coulomb_energy: float
+    exchange_energy: float
+    virial_ratio: float
+    orbitals: tuple[OrbitalResult, ...]
+    mean_inverse_r_squared: float
+    mean_inverse_r: float
+    mean_r: float
+    mean_r_squared: float
+    density_at_nucleus: float
+    cusp_ratio: float
+    iterations: int
+    orbital_change: float
+    energy_change: float
+    scf_strategy: str
+    r_max: float
+    grid_points: int
+    box_decay: float
+    warnings: tuple[str, ...]
+    grid_settings: GridSettings = field(repr=False)
+    scf_settings: ScfSettings = field(repr=False)
+    grid: RadialGrid = field(repr=False, metadata={"json": False})
+    shells: OccupiedShells = field(repr=False, metadata={"json": False})
+    orbital_energies: np.ndarray = field(repr=False, metadata={"json": False})
+    history: tuple[tuple[int, float, float, float], ...] = field(repr=False, metadata={"json": False})
+
+    @property
+    def homo_energy(self) -> float:
+        return float(self.orbital_energies.max())
+
+
+def solve_ground_state(
+    system: System,
+    grid_settings: GridSettings = GridSettings(),
+    scf_settings: ScfSettings = ScfSettings(),
+) -> GroundState:
+    """Solve the HF equations of ``system``, enlarging an automatic box until it holds the orbitals.
+
+    Returns a result with ``converged=False`` (and a :class:`RuntimeWarning`) if the SCF fails.
+
+    Raises
+    ------
+    ConfigurationError
+        If the outermost orbital is not bound (orbital energy >= 0): the ion does not exist in HF.
+    """
+    automatic = grid_settings.r_max is None
+    r_max = grid_settings.r_max or (ANION_R_MAX if system.charge < 0 else DEFAULT_R_MAX)
+    with threadpool_limits(limits=1, user_api="blas"):
+        # One BLAS thread: the matrices are a few hundred wide, where threading costs time.
+        for _ in range(4):
+            grid = build_grid(grid_settings, system.Z, r_max)
+            solution = solve_scf(grid, system.Z, system.subshells, scf_settings)
+            homo = float(solution.orbital_energies.max())
+            if homo >= 0.0:
+                raise ConfigurationError(
+                    f"atom.charge: the outermost orbital of {system.name} is not bound in Hartree-Fock"
+                    f" (energy {homo:+.4f} hartree); choose a less negative charge"
+                )
+            decay = np.sqrt(-2.0 * homo) * r_max
+            if not automatic or decay >= BOX_DECAY or not solution.converged:
+                break
+            r_max = 1.15 * BOX_DECAY / np.sqrt(-2.0 * homo)
+            logger.info("box enlarged to %.1f bohr (kappa R was %.1f)", r_max, decay)
+    notes = []
+    if decay < BOX_DECAY:
+        notes.append(
+            f"grid.r_max: the outermost orbital has decayed only to exp(-{decay:.1f}) at r = {r_max:g} bohr;"
+            f" use r_max >= {BOX_DECAY / np.sqrt(-2.0 * homo):.0f} or leave it out"
+        )
+    if not solution.converged:
+        notes.append(
+            f"scf: not converged after {solution.iterations} iterations (DIIS, then damped DIIS);"
+            f" orbital change {solution.residual:.1e}, energy change {solution.energy_change:.1e}"
+        )
+    for note in notes:
+        warnings.warn(note, RuntimeWarning, stacklevel=2)
+    return _ground_state_result(system, grid, solution, grid_settings, scf_settings, decay, tuple(notes))
+
+
+def _ground_state_result(system, grid, solution, grid_settings, scf_settings, decay, notes) -> GroundState:
+    shells = solution.shells
+    densities = shells.orbitals**2
+    powers = {k: densities @ grid.r**k for k in (-2, -1, 1, 2)}
+    q = shells.occupations
+    orbitals = tuple(
+        OrbitalResult(
+            label=f"{s.n}{'spdfghik'[s.l]}",
+            n=s.n,
+            l=s.l,
+            occupation=s.occupation,
+            energy=float(solution.orbital_energies[i]),
+            mean_inverse_r_squared=float(powers[-2][i]),
+            mean_inverse_r=float(powers[-1][i]),
+            mean_r=float(powers[1][i]),
+            mean_r_squared=float(powers[2][i]),
+        )
+        for i, s in enumerate(system.subshells)
+    )
+    # Near r = 0 only s orbitals contribute: P = a r + b r^2 + ..., rho(0) = sum q a^2 / 4 pi.
+    s_orbitals = shells.l == 0
+    slopes = shells.orbitals[s_orbitals] @ grid.origin_slope
+    half_curvatures = 0.5 * shells.orbitals[s_orbitals] @ grid.origin_curvature
+    weights = q[s_orbitals]
+    density_at_nucleus = float(weights @ slopes**2) / (4.0 * np.pi)
+    density_slope = 2.0 * float(weights @ (slopes * half_curvatures)) / (4.0 * np.pi)
+    potential = solution.total_energy - solution.kinetic
+    return GroundState(
+        system=system,
+        converged=solution.converged,
+        total_energy=solution.total_energy,
+        kinetic_energy=solution.kinetic,
+        nuclear_attraction_energy=solution.nuclear_attraction,
+        coulomb_energy=solution.coulomb,
+        exchange_energy=solution.exchange,
+        virial_ratio=-potential / solution.kinetic,
+        orbitals=orbitals,
+        mean_inverse_r_squared=float(q @ powers[-2]),
+        mean_inverse_r=float(q @ powers[-1]),
+        mean_r=float(q @ powers[1]),
+        mean_r_squared=float(q @ powers[2]),
+        density_at_nucleus=density_at_nucleus,
+        cusp_ratio=-density_slope / (2.0 * system.Z * density_at_nucleus),
+        iterations=solution.iterations,
+        orbital_change=solution.residual,
+        energy_change=solution.energy_change,
+        scf_strategy=solution.strategy,
+        r_max=grid.r_max,
+        grid_points=grid.size,
+        box_decay=float(decay),
+        warnings=notes,
+        grid_settings=grid_settings,
+        scf_settings=scf_settings,
+        grid=grid,
+        shells=shells,
+        orbital_energies=solution.orbital_energies,
+        history=solution.history,
+    )
