@@ -1,0 +1,271 @@
+"""First-order (TDHF / RPA) orbitals of a closed-shell atom in a multipole field.
+
+Perturbation (electron potential energy) :math:`v = f(r) C_{L0}(\\hat r)`, oscillating as
+:math:`e^{-i\\omega t} + e^{i\\omega t}`; by default :math:`f = r^L`.  Each occupied orbital
+:math:`\\phi_a` acquires first-order parts :math:`\\chi^\\pm_a`, expanded in channels
+:math:`a \\to l'` (:mod:`tdhf.angular`, ``response_exchange_factors``), whose radial functions obey
+
+.. math:: (F_{l'} - \\varepsilon_a \\mp \\omega)\\, \\rho^\\pm_{al'}
+          = -Q_{l'} \\big[(f + u)\\, P_a - X^\\pm_{al'}\\big],
+
+with :math:`F_{l'}` the ground-state Fock operator, :math:`Q_{l'}` the projector on the virtual
+space of symmetry l', :math:`u(r) = \\sum_{b l''} \\tfrac{q_b}{2l_b+1} A_{l_b l''}
+Y^L[P_b(\\rho^+_{bl''} + \\rho^-_{bl''})](r)/r` the induced Coulomb potential and :math:`X^\\pm` the
+induced exchange.  Without u and X (``coupled=False``) this is the uncoupled HF response: a sum
+over the virtual spectrum of the same Fock operator (the V^N virtuals).
+
+The multipole response of the density is
+:math:`\\int g(r) C_{L0}\\,\\delta n\\,d^3r = \\sum_{t} w_t \\int g P_a (\\rho^+_t + \\rho^-_t) dr`
+with channel weights :math:`w_t = \\tfrac{q_a}{2l_a+1} A_{l_a l'}`, so the polarizability is
+:math:`\\alpha_L(\\omega) = -\\sum_t w_t \\langle r^L P_a | \\rho^+_t + \\rho^-_t\\rangle`, normalised as
+:math:`\\alpha_L = 2\\sum_n |\\langle 0|\\sum_i r_i^L C_{L0}(\\hat r_i)|n\\rangle|^2 / (E_n - E_0)`.
+
+Each resolvent :math:`(F_{l'} - \\varepsilon_a \\mp \\omega)^{-1} Q_{l'}` is applied through the
+eigen-decomposition of :math:`F_{l'}` (computed once per atom and reused at every frequency, real,
+imaginary or complex); the coupling is made self-consistent by GMRES on
+:math:`(1 - G C)\\rho = G b`, a matrix-free Krylov solve.
+"""
+
+from __future__ import annotations
+
+import logging
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.linalg
+from scipy.sparse.linalg import LinearOperator, gmres
+
+from tdhf.angular import multipole_weight, response_exchange_factors
+from tdhf.errors import InputError
+from tdhf.potentials import OccupiedShells, direct_potential, exchange_operator, one_electron_operator
+from tdhf.radial.mesh import RadialGrid
+from tdhf.radial.poisson import coulomb_kernels
+
+__all__ = ["Channel", "FirstOrderOrbitals", "ResponseSolver"]
+
+logger = logging.getLogger(__name__)
+
+#: Relative residual at which the coupled Krylov solve stops.
+KRYLOV_TOLERANCE = 1e-12
+KRYLOV_MAX_ITERATIONS = 400
+
+
+@dataclass(frozen=True)
+class Channel:
+    """Excitation channel: occupied subshell index ``shell`` (angular momentum ``l``) to ``l_prime``."""
+
+    shell: int
+    l: int
+    l_prime: int
+    weight: float
+
+
+@dataclass(frozen=True, eq=False)
+class FirstOrderOrbitals:
+    """Radial first-order orbitals at one frequency.
+
+    Attributes
+    ----------
+    multipole : int
+    frequency : complex
+        Frequency in hartree (real, imaginary i*nu, or complex).
+    coupled : bool
+    plus, minus : ndarray, shape (n_channels, n)
+        DVR coefficients of :math:`\\rho^+_t` and :math:`\\rho^-_t`.
+    krylov_iterations : int
+    residual : float
+        Final relative residual of the coupled solve (0 for uncoupled).
+    """
+
+    multipole: int
+    frequency: complex
+    coupled: bool
+    plus: np.ndarray
+    minus: np.ndarray
+    krylov_iterations: int
+    residual: float
+
+
+class ResponseSolver:
+    """Solve the first-order equations of one atom for one multipole L at many frequencies.
+
+    Parameters
+    ----------
+    grid : RadialGrid
+    nuclear_charge : float
+    shells : OccupiedShells
+        Converged ground-state orbitals.
+    orbital_energies : ndarray, shape (m,)
+    multipole : int
+        L >= 1.
+    """
+
+    def __init__(
+        self,
+        grid: RadialGrid,
+        nuclear_charge: float,
+        shells: OccupiedShells,
+        orbital_energies: np.ndarray,
+        multipole: int,
+    ) -> None:
+        if multipole < 1:
+            raise InputError(f"response.multipoles: {multipole} is not >= 1")
+        self.grid = grid
+        self.shells = shells
+        self.multipole = L = multipole
+        self.orbital_energies = np.asarray(orbital_energies, dtype=float)
+        self.interacting = shells.interacting
+        l_max = int(shells.l.max())
+        self.channels: tuple[Channel, ...] = tuple(
+            Channel(a, int(l_a), l_t, float(q_a) / (2 * l_a + 1) * multipole_weight(L, int(l_a), l_t))
+            for a, (l_a, q_a) in enumerate(zip(shells.l, shells.occupations))
+            for l_t in range(abs(int(l_a) - L), int(l_a) + L + 1)
+            if (int(l_a) + L + l_t) % 2 == 0
+        )
+        self.kernels = coulomb_kernels(grid, 2 * l_max + L)
+        self._build_spectra(nuclear_charge)
+        self._build_coupling()
+
+    # ----------------------------------------------------------------- setup
+    def _build_spectra(self, nuclear_charge: float) -> None:
+        """Eigen-decomposition of every F_l' and the mask of its occupied eigenvectors."""
+        hartree = direct_potential(self.kernels, self.shells)
+        self.spectra: dict[int, tuple[np.ndarray, np.ndarray, np.ndarray]] = {}
+        overlap_with_occupied = {}
+        for l_t in sorted({c.l_prime for c in self.channels}):
+            fock = one_electron_operator(self.grid, nuclear_charge, l_t) - exchange_operator(self.kernels, self.shells, l_t)
+            fock[np.diag_indices(self.grid.size)] += hartree
+            values, vectors = scipy.linalg.eigh(fock)
+            virtual = np.ones(values.size, dtype=bool)
+            occupied = self.shells.orbitals[self.shells.l == l_t]
+            if occupied.size:
+                # The occupied orbitals are eigenvectors of F (to SCF tolerance): find them by overlap.
+                overlaps = np.abs(occupied @ vectors)
+                virtual[np.argmax(overlaps, axis=1)] = False
+                overlap_with_occupied[l_t] = float(overlaps.max(axis=1).min())
+            self.spectra[l_t] = (values, vectors, virtual)
+        self.occupied_overlap = overlap_with_occupied
+
+    def _build_coupling(self) -> None:
+        """Ground-state exchange densities Y^k_ab / r and the per-channel-pair angular factors."""
+        L = self.multipole
+        p = self.shells.orbitals
+        self._exchange_terms: list[list[tuple[int, int, float, float]]] = []
+        needed_pair_potentials: dict[tuple[int, int, int], np.ndarray] = {}
+        for target in self.channels:
+            terms = []
+            for s, source in enumerate(self.channels):
+                for k, s1, s2 in response_exchange_factors(L, target.l, target.l_prime, source.l, source.l_prime):
+                    terms.append((s, k, s1, s2))
+                    if s1:
+                        key = (min(target.shell, source.shell), max(target.shell, source.shell), k)
+                        if key not in needed_pair_potentials:
+                            needed_pair_potentials[key] = self.kernels[k] @ (p[key[0]] * p[key[1]])
+            self._exchange_terms.append(terms)
+        self._pair_potentials = needed_pair_potentials
+
+    # ----------------------------------------------------------------- operators
+    def perturbation(self, radial: np.ndarray | None = None) -> np.ndarray:
+        """Right-hand sides :math:`-f(r_i) p_{a,i}` per channel, shape (n_channels, n); f = r^L by default."""
+        f = self.grid.r**self.multipole if radial is None else radial
+        return np.array([-f * self.shells.orbitals[c.shell] for c in self.channels])
+
+    def resolvent(self, rhs: np.ndarray, frequency: complex, sign: int) -> np.ndarray:
+        """Apply :math:`(F_{l'} - \\varepsilon_a - s\\omega)^{-1} Q_{l'}` to each channel row of ``rhs``."""
+        out = np.empty(rhs.shape, dtype=np.result_type(rhs, frequency))
+        for l_t, (values, vectors, virtual) in self.spectra.items():
+            rows = [t for t, c in enumerate(self.channels) if c.l_prime == l_t]
+            projected = rhs[rows] @ vectors
+            shifts = np.array([self.orbital_energies[self.channels[t].shell] for t in rows]) + sign * frequency
+            denominators = values[None, :] - shifts[:, None]
+            projected = np.where(virtual[None, :], projected / np.where(virtual, denominators, 1.0), 0.0)
+            out[rows] = projected @ vectors.T
+        return out
+
+    def coupling(self, plus: np.ndarray, minus: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Induced-potential terms :math:`-u P_a + X^\\pm` of the right-hand sides for (rho+, rho-)."""
+        p = self.shells.orbitals
+        L = self.multipole
+        total = plus + minus
+        density = sum(c.weight * p[c.shell] * total[t] for t, c in enumerate(self.channels))
+        induced = self.kernels[L] @ density
+        out_plus = np.array([-induced * p[c.shell] for c in self.channels], dtype=total.dtype)
+        out_minus = out_plus.copy()
+        # Exchange: second kind needs Y^k[P_a rho_s]; batch them per k as one matrix product.
+        requests: dict[int, dict[tuple[int, int], int]] = {}
+        for target, terms in zip(self.channels, self._exchange_terms):
+            for s, k, _, s2 in terms:
+                if s2:
+                    requests.setdefault(k, {}).setdefault((target.shell, s), len(requests.get(k, {})))
+        solved: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+        for k, index in requests.items():
+            keys = sorted(index, key=index.get)
+            columns_plus = np.array([p[a] * plus[s] for a, s in keys]).T
+            columns_minus = np.array([p[a] * minus[s] for a, s in keys]).T
+            solved[k] = (self.kernels[k] @ columns_plus, self.kernels[k] @ columns_minus)
+        for t, (target, terms) in enumerate(zip(self.channels, self._exchange_terms)):
+            for s, k, s1, s2 in terms:
+                b = self.channels[s].shell
+                if s1:
+                    key = (min(target.shell, b), max(target.shell, b), k)
+                    pair = self._pair_potentials[key]
+                    out_plus[t] += s1 * pair * plus[s]
+                    out_minus[t] += s1 * pair * minus[s]
+                if s2:
+                    column = requests[k][(target.shell, s)]
+                    potential_plus, potential_minus = solved[k]
+                    out_plus[t] += s2 * potential_minus[:, column] * p[b]
+                    out_minus[t] += s2 * potential_plus[:, column] * p[b]
+        return out_plus, out_minus
+
+    # ----------------------------------------------------------------- solve
+    def solve(self, frequency: complex = 0.0, coupled: bool = True, radial: np.ndarray | None = None) -> FirstOrderOrbitals:
+        """First-order orbitals at ``frequency`` (hartree; complex allowed: i*nu is imaginary frequency)."""
+        rhs = self.perturbation(radial)
+        if isinstance(frequency, complex) and frequency.imag == 0.0:
+            frequency = frequency.real
+        plus0 = self.resolvent(rhs, frequency, +1)
+        minus0 = self.resolvent(rhs, frequency, -1)
+        if not coupled or not self.interacting:
+            return FirstOrderOrbitals(self.multipole, frequency, coupled, plus0, minus0, 0, 0.0)
+        shape = plus0.shape
+        dtype = plus0.dtype
+        size = plus0.size
+
+        def apply(vector: np.ndarray) -> np.ndarray:
+            plus = vector[:size].reshape(shape)
+            minus = vector[size:].reshape(shape)
+            c_plus, c_minus = self.coupling(plus, minus)
+            return vector - np.concatenate(
+                [self.resolvent(c_plus, frequency, +1).ravel(), self.resolvent(c_minus, frequency, -1).ravel()]
+            )
+
+        operator = LinearOperator((2 * size, 2 * size), matvec=apply, dtype=dtype)
+        start = np.concatenate([plus0.ravel(), minus0.ravel()])
+        count = [0]
+
+        def callback(_residual_norm):
+            count[0] += 1
+
+        solution, info = gmres(
+            operator, start, x0=start, rtol=KRYLOV_TOLERANCE, atol=0.0, restart=60,
+            maxiter=KRYLOV_MAX_ITERATIONS, callback=callback, callback_type="pr_norm",
+        )
+        residual = float(np.linalg.norm(apply(solution) - start) / np.linalg.norm(start))
+        logger.debug("response L=%d omega=%s: %d Krylov steps, residual %.2e", self.multipole, frequency, count[0], residual)
+        return FirstOrderOrbitals(
+            self.multipole, frequency, True, solution[:size].reshape(shape), solution[size:].reshape(shape),
+            count[0], residual,
+        )
+
+    # ----------------------------------------------------------------- observables
+    def expectation(self, first_order: FirstOrderOrbitals, radial: np.ndarray) -> complex:
+        """:math:`\\int g(r) C_{L0}\\,\\delta n\\,d^3r` for the radial function g at the nodes."""
+        p = self.shells.orbitals
+        total = first_order.plus + first_order.minus
+        value = sum(c.weight * (radial * p[c.shell]) @ total[t] for t, c in enumerate(self.channels))
+        return complex(value) if np.iscomplexobj(value) else float(value)
+
+    def polarizability(self, first_order: FirstOrderOrbitals) -> complex:
+        """:math:`\\alpha_L(\\omega) = -\\int r^L C_{L0}\\,\\delta n` (a.u., normalization in the module docstring)."""
+        return -self.expectation(first_order, self.grid.r**self.multipole)
