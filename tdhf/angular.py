@@ -108,7 +108,7 @@ def wigner_3j(j1: int, j2: int, j3: int, m1: int, m2: int, m3: int) -> float:
 
 
 def c_matrix_element(l: int, m: int, k: int, q: int, l_prime: int, m_prime: int) -> float:
-    """:math:`\langle l m | C_{kq} | l' m' \rangle
+    r""":math:`\langle l m | C_{kq} | l' m' \rangle
     = (-1)^m \sqrt{(2l+1)(2l'+1)} (l\,k\,l'; -m\,q\,m') (l\,k\,l'; 000)`."""
     return (
         (-1) ** m

@@ -25,6 +25,7 @@ from typing import Protocol, Sequence
 import numpy as np
 import scipy.linalg
 
+from tdhf.errors import InputError
 from tdhf.numerics.diis import Diis
 from tdhf.potentials import OccupiedShells, direct_potential, exchange_operator, one_electron_operator
 from tdhf.radial.mesh import RadialGrid
@@ -63,6 +64,18 @@ class ScfSettings:
     max_iterations: int = 120
     diis_size: int = 10
     damping: float = 0.5
+
+    def __post_init__(self) -> None:
+        for key in ("energy_tolerance", "residual_tolerance"):
+            value = getattr(self, key)
+            if not 0.0 < value < 1.0:
+                raise InputError(f"scf.{key}: {value!r} must be in (0, 1); the default is {getattr(ScfSettings, key)}")
+        if isinstance(self.max_iterations, bool) or not isinstance(self.max_iterations, int) or not 1 <= self.max_iterations <= 10000:
+            raise InputError(f"scf.max_iterations: {self.max_iterations!r} must be an integer in 1..10000; the default is 120")
+        if isinstance(self.diis_size, bool) or not isinstance(self.diis_size, int) or not 1 <= self.diis_size <= 50:
+            raise InputError(f"scf.diis_size: {self.diis_size!r} must be an integer in 1..50; the default is 10")
+        if not 0.0 <= self.damping < 1.0:
+            raise InputError(f"scf.damping: {self.damping!r} must be in [0, 1); the default is 0.5")
 
 
 class ShellSpec(Protocol):

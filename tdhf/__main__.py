@@ -1,0 +1,5 @@
+"""``python -m tdhf``: the same command line as ``tdhf``."""
+
+from tdhf.cli import main
+
+raise SystemExit(main())

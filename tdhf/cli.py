@@ -1,0 +1,215 @@
+"""Command line: ``tdhf run DECK.toml`` and ``tdhf atom ELEMENT`` (argument parsing only).
+
+Results (tables) go to stdout; warnings, progress and the log go to stderr.  ``--quiet`` prints
+nothing but errors; ``--verbose`` adds the effective options, progress and one line per SCF
+iteration (logger ``tdhf.scf`` at DEBUG).
+
+Exit codes
+----------
+0  success
+1  unexpected internal error (a bug; ``--verbose`` shows the traceback)
+2  input error: bad deck, bad argument, impossible system (one line ``tdhf: error: ...``)
+3  a solver did not converge; the JSON file, if asked for, is still written
+"""
+
+from __future__ import annotations
+
+import argparse
+import contextlib
+import logging
+import sys
+import traceback
+import warnings
+from pathlib import Path
+from typing import Any, Iterator, Sequence, TextIO
+
+from rich.console import Console
+
+from tdhf.deck import Deck, build_deck, load_deck
+from tdhf.driver import program_info, result_to_json, run_deck
+from tdhf.errors import ConvergenceError, InputError
+from tdhf.report.serialize import write_json
+from tdhf.report.terminal import print_report
+
+__all__ = ["main", "build_parser", "EXIT_OK", "EXIT_BUG", "EXIT_INPUT", "EXIT_CONVERGENCE"]
+
+EXIT_OK, EXIT_BUG, EXIT_INPUT, EXIT_CONVERGENCE, EXIT_INTERRUPTED = 0, 1, 2, 3, 130
+#: Width of the tables when stdout is not a terminal (a file or a pipe).
+FILE_WIDTH = 120
+
+logger = logging.getLogger("tdhf.cli")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser of ``tdhf``."""
+    parser = argparse.ArgumentParser(
+        prog="tdhf",
+        description="Hartree-Fock ground states and TDHF linear response of closed-shell atoms.",
+    )
+    parser.add_argument("--version", action="version", version=f"tdhf {program_info().version}")
+    common = argparse.ArgumentParser(add_help=False)
+    common.add_argument("--json", metavar="OUT.json", type=Path, help="also write the results to this JSON file")
+    talk = common.add_mutually_exclusive_group()
+    talk.add_argument("-v", "--verbose", action="store_true",
+                      help="show options, progress and every SCF iteration on stderr")
+    talk.add_argument("-q", "--quiet", action="store_true", help="print nothing but errors")
+    commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+
+    run = commands.add_parser("run", parents=[common], help="run a deck (TOML file)",
+                              description="Run the calculation described by a deck.")
+    run.add_argument("deck", metavar="DECK.toml", type=Path)
+
+    atom = commands.add_parser("atom", parents=[common], help="one atom or ion without a deck",
+                               description="Ground state (and optionally response) of one system.")
+    atom.add_argument("element", metavar="ELEMENT", help='element symbol or atomic number, e.g. "Ne" or 10')
+    atom.add_argument("--charge", type=int, help="net charge (default 0)")
+    atom.add_argument("--configuration", metavar="CONFIG", help='closed-shell configuration, e.g. "1s2 2s2"')
+    atom.add_argument("--tight", action="store_true", help="use the tight grid preset")
+    atom.add_argument("--multipoles", type=int, nargs="+", metavar="L",
+                      help="response multipole orders (1 dipole, 2 quadrupole, 3 octupole)")
+    atom.add_argument("--frequencies", type=float, nargs="+", metavar="W",
+                      help="real response frequencies, hartree")
+    atom.add_argument("--imaginary", type=float, nargs="+", metavar="W",
+                      help="imaginary response frequencies, hartree")
+    return parser
+
+
+def _deck_from_arguments(args: argparse.Namespace) -> Deck:
+    """The deck of ``tdhf run``, or the deck ``tdhf atom`` options describe (same validation)."""
+    if args.command == "run":
+        return load_deck(args.deck)
+    atom: dict[str, Any] = {"element": args.element}
+    if args.charge is not None:
+        atom["charge"] = args.charge
+    if args.configuration is not None:
+        atom["configuration"] = args.configuration
+    data: dict[str, Any] = {"atom": atom}
+    if args.tight:
+        data["grid"] = {"preset": "tight"}
+    response = {key: value for key, value in (("multipoles", args.multipoles), ("frequencies", args.frequencies),
+                                              ("imaginary_frequencies", args.imaginary)) if value is not None}
+    if response:
+        data["response"] = response
+    return build_deck(data)
+
+
+def _check_output(path: Path | None) -> Path | None:
+    """Fail before computing if the JSON file could not be written."""
+    if path is None:
+        return None
+    if path.is_dir():
+        raise InputError(f"--json: {path} is a directory; give a file name")
+    if not path.parent.is_dir():
+        raise InputError(f"--json: the directory {path.parent} does not exist")
+    return path
+
+
+class _OneLineFormatter(logging.Formatter):
+    """``tdhf: error: ...``, ``tdhf: warning: ...``, ``tdhf: ...``; newlines become spaces."""
+
+    def format(self, record: logging.LogRecord) -> str:
+        text = " ".join(record.getMessage().strip().splitlines())
+        if record.levelno >= logging.ERROR:
+            return f"tdhf: error: {text}"
+        if record.levelno >= logging.WARNING:
+            return f"tdhf: warning: {text}"
+        return f"tdhf: {text}"
+
+
+class _ConsoleHandler(logging.Handler):
+    """Log records printed on a rich Console: they stay above a live status line, never wrap."""
+
+    def __init__(self, console: Console) -> None:
+        super().__init__()
+        self.console = console
+
+    def emit(self, record: logging.LogRecord) -> None:
+        try:
+            self.console.print(self.format(record), markup=False, highlight=False, soft_wrap=True)
+        except Exception:
+            self.handleError(record)
+
+
+@contextlib.contextmanager
+def _stderr_logging(console: Console, level: int) -> Iterator[None]:
+    """Send the ``tdhf`` loggers and Python warnings to ``console`` (stderr), one line each."""
+    package = logging.getLogger("tdhf")
+    handler = _ConsoleHandler(console)
+    handler.setFormatter(_OneLineFormatter())
+    saved = package.level, package.propagate
+    package.addHandler(handler)
+    package.setLevel(level)
+    package.propagate = False
+
+    def show_warning(message, category, filename, lineno, file=None, line=None) -> None:
+        logger.warning("%s", message)
+
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("default")
+            warnings.showwarning = show_warning
+            yield
+    finally:
+        package.removeHandler(handler)
+        package.setLevel(saved[0])
+        package.propagate = saved[1]
+
+
+@contextlib.contextmanager
+def _progress(console: Console, live: bool) -> Iterator[Any]:
+    """A progress callback: a transient status line on a terminal, else INFO log lines."""
+    if not live:
+        yield lambda stage: logger.info("%s ...", stage)
+        return
+    with console.status("starting ...") as status:
+        yield lambda stage: status.update(f"{stage} ...")
+
+
+def main(argv: Sequence[str] | None = None, stdout: TextIO | None = None, stderr: TextIO | None = None) -> int:
+    """Run the command line and return the exit code (see the module docstring)."""
+    stdout, stderr = stdout or sys.stdout, stderr or sys.stderr
+    args = build_parser().parse_args(argv)
+    level = logging.ERROR if args.quiet else logging.DEBUG if args.verbose else logging.WARNING
+    err_console = Console(file=stderr)
+    with _stderr_logging(err_console, level):
+        try:
+            return _execute(args, stdout, err_console)
+        except InputError as err:
+            logger.error("%s", err)
+            return EXIT_INPUT
+        except ConvergenceError as err:
+            logger.error("%s", err)
+            return EXIT_CONVERGENCE
+        except KeyboardInterrupt:
+            logger.error("interrupted")
+            return EXIT_INTERRUPTED
+        except Exception as err:  # a bug: say so in one line, the traceback only when asked
+            logger.error("internal error %s: %s%s", type(err).__name__, err,
+                         "" if args.verbose else " (run with --verbose for the traceback)")
+            if args.verbose:
+                traceback.print_exc(file=stderr)
+            return EXIT_BUG
+
+
+def _execute(args: argparse.Namespace, stdout: TextIO, err_console: Console) -> int:
+    deck = _deck_from_arguments(args)
+    json_path = _check_output(args.json)
+    with _progress(err_console, live=err_console.is_terminal and not (args.quiet or args.verbose)) as progress:
+        result = run_deck(deck, progress=progress)
+    if json_path is not None:
+        write_json(json_path, result_to_json(result))
+    if not args.quiet:
+        console = Console(file=stdout)
+        if not console.is_terminal:
+            console = Console(file=stdout, width=FILE_WIDTH)
+        print_report(console, result)
+    if result.rejected:
+        saved = f"; the other results were written to {json_path}" if json_path is not None else ""
+        logger.error("%s%s", "; ".join(result.rejected), saved)
+        return EXIT_INPUT
+    problems = result.convergence_problems()
+    if problems:
+        saved = f"; results written to {json_path}" if json_path is not None else ""
+        logger.error("%s%s", "; ".join(problems), saved)
+        return EXIT_CONVERGENCE
+    return EXIT_OK

@@ -1,0 +1,54 @@
+"""CODATA conversion factors for the edges of tdhf (reports and file output).
+
+Everything inside tdhf is in Hartree atomic units (hartree, bohr, e, m_e); these factors are used
+only where numbers leave the program, e.g. an orbital-energy column in eV.  Every value is read
+from :data:`scipy.constants.physical_constants` (the CODATA set of the installed SciPy), never
+typed in.
+
+>>> round(HARTREE_EV, 3)
+27.211
+>>> round(BOHR_ANGSTROM, 4)
+0.5292
+"""
+
+from __future__ import annotations
+
+from scipy.constants import physical_constants
+
+__all__ = [
+    "HARTREE_EV",
+    "BOHR_ANGSTROM",
+    "POLARIZABILITY_SI",
+    "POLARIZABILITY_ANGSTROM3",
+    "hartree_to_ev",
+    "CODATA_KEYS",
+]
+
+#: The CODATA entries used, by the name scipy gives them.
+CODATA_KEYS = {
+    "hartree_ev": "Hartree energy in eV",
+    "bohr_m": "Bohr radius",
+    "polarizability_si": "atomic unit of electric polarizability",
+}
+
+#: One hartree in electronvolt.
+HARTREE_EV: float = physical_constants[CODATA_KEYS["hartree_ev"]][0]
+
+#: One bohr in angstrom.
+BOHR_ANGSTROM: float = physical_constants[CODATA_KEYS["bohr_m"]][0] * 1e10
+
+#: The atomic unit of dipole polarizability, e^2 a0^2 / E_h, in C m^2 / V (= C^2 m^2 / J).
+POLARIZABILITY_SI: float = physical_constants[CODATA_KEYS["polarizability_si"]][0]
+
+#: The atomic unit of dipole polarizability as a volume, bohr^3 in angstrom^3 (the "polarizability
+#: volume" alpha / (4 pi epsilon_0), which is a0^3 for one atomic unit).
+POLARIZABILITY_ANGSTROM3: float = BOHR_ANGSTROM**3
+
+
+def hartree_to_ev(energy_hartree: float) -> float:
+    """Convert an energy from hartree to eV.
+
+    >>> round(hartree_to_ev(-0.5), 4)
+    -13.6057
+    """
+    return energy_hartree * HARTREE_EV

@@ -1,0 +1,481 @@
+"""Input decks: TOML files describing one run, read into frozen dataclasses with strict checks.
+
+A deck has one table per part of the calculation; only ``[atom]`` is required::
+
+    schema = 1                     # optional; the deck format version (only 1 exists)
+
+    [atom]
+    element = "Ne"                 # symbol or atomic number
+    charge = 0                     # optional, integer
+    configuration = "1s2 2s2 2p6"  # optional; default: the ground-state configuration
+
+    [grid]                         # optional: tdhf.radial.mesh.GridSettings
+    preset = "tight"               # "default" or "tight"; the other keys override the preset
+    order = 14
+    growth = 1.5
+    first_element = 0.01           # bohr
+    r_max = 60.0                   # bohr; leave out for an automatic box
+
+    [scf]                          # optional: tdhf.scf.ScfSettings
+    energy_tolerance = 1e-12       # hartree
+    residual_tolerance = 1e-9
+    max_iterations = 120
+    diis_size = 10
+    damping = 0.5
+
+    [response]                     # optional: linear response (tdhf.response)
+    multipoles = [1, 2]            # L = 1 dipole, 2 quadrupole, 3 octupole
+    frequencies = [0.0, 0.1]       # real frequencies, hartree
+    imaginary_frequencies = [0.5]  # imaginary frequencies, hartree
+    coupled = true                 # also solve the coupled (TDHF) equations, not only uncoupled
+
+    [dispersion]                   # optional: dispersion coefficients with partner systems
+    partners = ["He", "Na+"]       # each paired with the [atom] system
+    quadrature_points = 24         # points of the imaginary-frequency quadrature, 8..96
+
+Validation is strict: an unknown table or key, a value of the wrong type (a boolean is not an
+integer; an integer is accepted where a float is expected) or an impossible value raises an
+:class:`~tdhf.errors.InputError` whose one-line message starts with the full key path, e.g.
+``response.frequencies[2]: -0.1 is negative; frequencies are in hartree and must be >= 0``.
+The atom and the dispersion partners are checked as closed-shell systems at load time, so every
+input error comes before any computation.
+
+>>> deck = parse_deck('[atom]\\nelement = "He"\\n[response]\\nfrequencies = [0, 0.1]\\n')
+>>> deck.atom.element, deck.response.frequencies, deck.response.multipoles
+('He', (0.0, 0.1), (1,))
+>>> parse_system_name("Mg2+")
+('Mg', 2)
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import difflib
+import json
+import math
+import re
+import tomllib
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, Callable, Mapping
+
+from tdhf.elements import atomic_number, symbol
+from tdhf.errors import DeckError, FrequencyError, InputError, UnknownElementError
+from tdhf.radial.mesh import GridSettings
+from tdhf.scf import ScfSettings
+from tdhf.system import System
+
+__all__ = [
+    "SCHEMA_VERSION",
+    "AtomSection",
+    "ResponseSection",
+    "DispersionSection",
+    "Deck",
+    "load_deck",
+    "parse_deck",
+    "build_deck",
+    "format_deck",
+    "parse_system_name",
+]
+
+#: The only deck format version so far.
+SCHEMA_VERSION = 1
+#: Multipole orders the response accepts: dipole, quadrupole, octupole.
+MULTIPOLE_RANGE = (1, 3)
+#: Allowed number of imaginary-frequency quadrature points for dispersion coefficients.
+QUADRATURE_RANGE = (8, 96)
+DEFAULT_QUADRATURE_POINTS = 24
+GRID_PRESETS: dict[str, Callable[[], GridSettings]] = {"default": GridSettings, "tight": GridSettings.tight}
+
+
+@dataclass(frozen=True)
+class AtomSection:
+    """``[atom]``: the system, validated by :meth:`tdhf.system.System.from_input`."""
+
+    element: str | int
+    charge: int = 0
+    configuration: str | None = None
+
+    def to_system(self) -> System:
+        """The validated closed-shell system (raises the errors of ``System.from_input``)."""
+        return System.from_input(self.element, self.charge, self.configuration)
+
+
+@dataclass(frozen=True)
+class ResponseSection:
+    """``[response]``: multipole orders and frequencies (hartree) of the linear response."""
+
+    multipoles: tuple[int, ...] = (1,)
+    frequencies: tuple[float, ...] = (0.0,)
+    imaginary_frequencies: tuple[float, ...] = ()
+    coupled: bool = True
+
+
+@dataclass(frozen=True)
+class DispersionSection:
+    """``[dispersion]``: partner systems (names such as "He", "Na+", "Cl-") and the quadrature size."""
+
+    partners: tuple[str, ...]
+    quadrature_points: int = DEFAULT_QUADRATURE_POINTS
+
+
+@dataclass(frozen=True)
+class Deck:
+    """A validated deck: one field per table (None for an absent optional calculation)."""
+
+    atom: AtomSection
+    grid: GridSettings = GridSettings()
+    scf: ScfSettings = ScfSettings()
+    response: ResponseSection | None = None
+    dispersion: DispersionSection | None = None
+    schema: int = SCHEMA_VERSION
+
+
+# --------------------------------------------------------------------------------------------
+# Reading
+
+
+def load_deck(path: str | Path) -> Deck:
+    """Read and validate a deck file.
+
+    Raises
+    ------
+    DeckError
+        If the file cannot be read, is not valid TOML (the message gives ``file:line:column``) or
+        violates the schema.
+    InputError
+        Any other input error (unknown element, open shell, grid values ...), before computing.
+    """
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise DeckError(f"{path}: no such deck file") from None
+    except UnicodeDecodeError as err:
+        raise DeckError(f"{path}: not a UTF-8 text file (byte {err.start}); decks are TOML text") from None
+    except OSError as err:
+        raise DeckError(f"{path}: cannot read the deck: {err.strerror or err}") from None
+    return parse_deck(text, source=str(path))
+
+
+_TOML_POSITION = re.compile(r"\s*\((?:at line (\d+), column (\d+)|at end of document)\)\s*$")
+
+
+def parse_deck(text: str, source: str = "<string>") -> Deck:
+    """Parse and validate deck text; ``source`` names it in TOML syntax errors.
+
+    >>> parse_deck('[atom]\\nelement = 10\\n').atom.element
+    10
+    """
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as err:
+        message = str(err).splitlines()[0] if str(err) else "syntax error"
+        match = _TOML_POSITION.search(message)
+        if match and match.group(1):
+            line, column = int(match.group(1)), int(match.group(2))
+        else:  # "at end of document" or no position: point at the end of the text
+            lines = text.split("\n")
+            line, column = len(lines), len(lines[-1]) + 1
+        reason = message[: match.start()] if match else message
+        raise DeckError(f"{source}:{line}:{column}: malformed TOML: {reason}") from None
+    return build_deck(data)
+
+
+def build_deck(data: Mapping[str, Any]) -> Deck:
+    """Validate a deck given as nested mappings (parsed TOML, or built by the command line)."""
+    _check_keys("", data, _TOP_LEVEL)
+    schema = data.get("schema", SCHEMA_VERSION)
+    if _integer("schema", schema) != SCHEMA_VERSION:
+        raise DeckError(f"schema: {schema} is not supported; this tdhf reads schema {SCHEMA_VERSION}")
+    if "atom" not in data:
+        raise DeckError('atom: missing table [atom]; every deck names its system, e.g. [atom] element = "Ne"')
+    atom = _atom(_table("atom", data["atom"]))
+    grid = _grid(_table("grid", data.get("grid", {})))
+    scf = _scf(_table("scf", data.get("scf", {})))
+    response = _response(_table("response", data["response"])) if "response" in data else None
+    dispersion = _dispersion(_table("dispersion", data["dispersion"])) if "dispersion" in data else None
+    return Deck(atom=atom, grid=grid, scf=scf, response=response, dispersion=dispersion, schema=schema)
+
+
+def _atom(table: Mapping[str, Any]) -> AtomSection:
+    _check_keys("atom", table, _field_names(AtomSection))
+    if "element" not in table:
+        raise DeckError('atom.element: missing; give a symbol such as "Ne" or an atomic number')
+    element = table["element"]
+    if isinstance(element, bool) or not isinstance(element, (str, int)):
+        raise DeckError(f"atom.element: expected a string or an integer, got {_describe(element)}")
+    configuration = table.get("configuration")
+    section = AtomSection(
+        element=element,
+        charge=_integer("atom.charge", table.get("charge", 0)),
+        configuration=None if configuration is None else _string("atom.configuration", configuration),
+    )
+    section.to_system()  # element, charge and configuration errors now, before any computation
+    return section
+
+
+def _grid(table: Mapping[str, Any]) -> GridSettings:
+    fields = _field_names(GridSettings)
+    _check_keys("grid", table, fields + ("preset",))
+    preset = _string("grid.preset", table.get("preset", "default"))
+    if preset not in GRID_PRESETS:
+        raise DeckError(f"grid.preset: {preset!r} is unknown; use one of {_quoted(GRID_PRESETS)}")
+    values = {"order": _integer("grid.order", table["order"])} if "order" in table else {}
+    values |= {key: _number(f"grid.{key}", table[key]) for key in fields if key != "order" and key in table}
+    return dataclasses.replace(GRID_PRESETS[preset](), **values)  # GridError passes through
+
+
+def _scf(table: Mapping[str, Any]) -> ScfSettings:
+    _check_keys("scf", table, _field_names(ScfSettings))
+    values: dict[str, Any] = {}
+    for key in ("energy_tolerance", "residual_tolerance"):
+        if key in table:
+            values[key] = _number(f"scf.{key}", table[key])
+            if not values[key] > 0.0:
+                raise DeckError(f"scf.{key}: {values[key]!r} must be > 0")
+    for key in ("max_iterations", "diis_size"):
+        if key in table:
+            values[key] = _integer(f"scf.{key}", table[key])
+            if values[key] < 1:
+                raise DeckError(f"scf.{key}: {values[key]} must be >= 1")
+    if "damping" in table:
+        values["damping"] = _number("scf.damping", table["damping"])
+        if not 0.0 <= values["damping"] < 1.0:
+            raise DeckError(f"scf.damping: {values['damping']!r} must be in [0, 1), the fraction of "
+                            "the previous Fock matrix kept")
+    return ScfSettings(**values)
+
+
+def _response(table: Mapping[str, Any]) -> ResponseSection:
+    _check_keys("response", table, _field_names(ResponseSection))
+    defaults = ResponseSection()
+    low, high = MULTIPOLE_RANGE
+    multipoles = defaults.multipoles
+    if "multipoles" in table:
+        multipoles = _unique("response.multipoles", [
+            _in_range(f"response.multipoles[{i}]", _integer(f"response.multipoles[{i}]", value), low, high,
+                      "the multipole order L is 1 (dipole), 2 (quadrupole) or 3 (octupole)")
+            for i, value in enumerate(_array("response.multipoles", table["multipoles"], allow_empty=False))
+        ])
+    frequencies = {
+        key: _frequencies(f"response.{key}", table[key]) if key in table else getattr(defaults, key)
+        for key in ("frequencies", "imaginary_frequencies")
+    }
+    if not any(frequencies.values()):
+        raise DeckError("response: both frequencies and imaginary_frequencies are empty; give at least one")
+    coupled = _boolean("response.coupled", table.get("coupled", defaults.coupled))
+    return ResponseSection(multipoles=multipoles, coupled=coupled, **frequencies)
+
+
+def _frequencies(path: str, value: Any) -> tuple[float, ...]:
+    numbers = []
+    for i, item in enumerate(_array(path, value, allow_empty=True)):
+        number = _number(f"{path}[{i}]", item)
+        if number < 0.0:
+            raise FrequencyError(f"{path}[{i}]: {number!r} is negative; frequencies are in hartree and must be >= 0")
+        numbers.append(number)
+    return _unique(path, numbers)
+
+
+def _dispersion(table: Mapping[str, Any]) -> DispersionSection:
+    _check_keys("dispersion", table, _field_names(DispersionSection))
+    if "partners" not in table:
+        raise DeckError('dispersion.partners: missing; list the partner systems, e.g. partners = ["He", "Na+"]')
+    partners = []
+    for i, item in enumerate(_array("dispersion.partners", table["partners"], allow_empty=False)):
+        path = f"dispersion.partners[{i}]"
+        name = _string(path, item)
+        element, charge = parse_system_name(name, path)
+        try:
+            partners.append(System.from_input(element, charge).name)  # canonical: "na1+" -> "Na+"
+        except InputError as err:
+            raise type(err)(_partner_message(path, name, str(err))) from None
+    low, high = QUADRATURE_RANGE
+    points = _integer("dispersion.quadrature_points", table.get("quadrature_points", DEFAULT_QUADRATURE_POINTS))
+    _in_range("dispersion.quadrature_points", points, low, high,
+              "it is the number of points of the imaginary-frequency quadrature")
+    return DispersionSection(partners=_unique("dispersion.partners", partners), quadrature_points=points)
+
+
+_ATOM_KEY = re.compile(r"^atom\.\w+: ")
+
+
+def _partner_message(path: str, name: str, message: str) -> str:
+    """Re-address an ``atom.*`` message from System.from_input to a partner entry."""
+    message = _ATOM_KEY.sub("", message).replace("set atom.charge", "write the charge in the name")
+    return f"{path}: {name!r}: {message}"
+
+
+_SYSTEM_NAME = re.compile(r"([A-Za-z]{1,3})(?:(\d*)([+-]))?")
+
+
+def parse_system_name(text: str, path: str = "dispersion.partners[0]") -> tuple[str, int]:
+    """Split a system name such as ``"He"``, ``"Na+"``, ``"Cl-"``, ``"Mg2+"`` into (symbol, charge).
+
+    ``path`` is the deck key named in errors.
+
+    >>> parse_system_name("Cl-"), parse_system_name("o2-")
+    (('Cl', -1), ('O', -2))
+
+    Raises
+    ------
+    DeckError
+        If the text is not an element symbol with an optional charge ``[digits]+`` or ``[digits]-``.
+    UnknownElementError
+        If the symbol is not an element.
+    """
+    match = _SYSTEM_NAME.fullmatch(text.strip())
+    if not match:
+        raise DeckError(f'{path}: cannot read {text!r}; write an element symbol with an optional charge '
+                        f'such as "He", "Na+", "Cl-", "Mg2+"')
+    letters, digits, sign = match.groups()
+    try:
+        z = atomic_number(letters)
+    except InputError:
+        raise UnknownElementError(f"{path}: {letters!r} in {text!r} is not an element symbol") from None
+    magnitude = int(digits) if digits else 1
+    if sign and magnitude == 0:
+        raise DeckError(f'{path}: {text!r} has charge 0; write the neutral atom without a sign, e.g. "{symbol(z)}"')
+    charge = 0 if not sign else magnitude if sign == "+" else -magnitude
+    return symbol(z), charge
+
+
+# --------------------------------------------------------------------------------------------
+# Writing
+
+
+def format_deck(deck: Deck) -> str:
+    """TOML text of a deck with every effective option written out; ``parse_deck`` reads it back.
+
+    >>> deck = parse_deck('[atom]\\nelement = "Ne"\\n[grid]\\npreset = "tight"\\n')
+    >>> parse_deck(format_deck(deck)) == deck
+    True
+    """
+    lines = [f"schema = {deck.schema}"]
+    for name in ("atom", "grid", "scf", "response", "dispersion"):
+        section = getattr(deck, name)
+        if section is None:
+            continue
+        lines += ["", f"[{name}]"]
+        for field in dataclasses.fields(section):
+            value = getattr(section, field.name)
+            if value is not None:
+                lines.append(f"{field.name} = {_toml_value(value)}")
+    return "\n".join(lines) + "\n"
+
+
+def _toml_value(value: Any) -> str:
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, (tuple, list)):
+        return "[" + ", ".join(_toml_value(v) for v in value) + "]"
+    if isinstance(value, str):
+        return json.dumps(value)  # a JSON string is a TOML basic string
+    return repr(value)
+
+
+# --------------------------------------------------------------------------------------------
+# Checks shared by the tables
+
+
+_TOP_LEVEL = ("schema", "atom", "grid", "scf", "response", "dispersion")
+_TABLES = _TOP_LEVEL[1:]
+
+
+def _field_names(cls: type) -> tuple[str, ...]:
+    return tuple(f.name for f in dataclasses.fields(cls))
+
+
+def _join(path: str, key: str) -> str:
+    return f"{path}.{key}" if path else key
+
+
+def _check_keys(path: str, table: Mapping[str, Any], allowed: tuple[str, ...]) -> None:
+    """Reject keys outside ``allowed``, suggesting the closest valid one."""
+    for key in table:
+        if key in allowed:
+            continue
+        full = _join(path, key)
+        what = "unknown table" if not path and isinstance(table[key], dict) else "unknown key"
+        close = difflib.get_close_matches(key, allowed, n=1, cutoff=0.6)
+        if close:
+            hint = f"[{close[0]}]" if not path and close[0] in _TABLES else _join(path, close[0])
+            raise DeckError(f"{full}: {what}; did you mean {hint}?")
+        valid = ", ".join(f"[{k}]" if not path and k in _TABLES else k for k in allowed)
+        raise DeckError(f"{full}: {what}; valid {'top-level entries' if not path else 'keys'}: {valid}")
+
+
+def _describe(value: Any) -> str:
+    """A value as the deck writer sees it: 'boolean true', 'float 1.5', 'string "x"'."""
+    if isinstance(value, bool):
+        return f"boolean {str(value).lower()}"
+    if isinstance(value, int):
+        return f"integer {value}"
+    if isinstance(value, float):
+        return f"float {value!r}"
+    if isinstance(value, str):
+        return f"string {json.dumps(value)}"
+    if isinstance(value, (list, tuple)):
+        return "an array"
+    if isinstance(value, dict):
+        return "a table"
+    return f"{type(value).__name__} {value}"
+
+
+def _table(path: str, value: Any) -> Mapping[str, Any]:
+    if not isinstance(value, dict):
+        raise DeckError(f"{path}: expected a table [{path}], got {_describe(value)}")
+    return value
+
+
+def _integer(path: str, value: Any) -> int:
+    if isinstance(value, bool) or not isinstance(value, int):
+        raise DeckError(f"{path}: expected an integer, got {_describe(value)}")
+    return value
+
+
+def _number(path: str, value: Any) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise DeckError(f"{path}: expected a number, got {_describe(value)}")
+    if not math.isfinite(value):
+        raise DeckError(f"{path}: {value!r} is not a finite number")
+    return float(value)
+
+
+def _string(path: str, value: Any) -> str:
+    if not isinstance(value, str):
+        raise DeckError(f"{path}: expected a string, got {_describe(value)}")
+    return value
+
+
+def _boolean(path: str, value: Any) -> bool:
+    if not isinstance(value, bool):
+        raise DeckError(f"{path}: expected true or false, got {_describe(value)}")
+    return value
+
+
+def _array(path: str, value: Any, allow_empty: bool) -> list[Any]:
+    if not isinstance(value, (list, tuple)):
+        raise DeckError(f"{path}: expected an array such as [1, 2], got {_describe(value)}")
+    if not value and not allow_empty:
+        raise DeckError(f"{path}: empty array; give at least one entry")
+    return list(value)
+
+
+def _in_range(path: str, value: int, low: int, high: int, meaning: str) -> int:
+    if not low <= value <= high:
+        raise DeckError(f"{path}: {value} is not in {low}..{high}; {meaning}")
+    return value
+
+
+def _unique(path: str, values: list[Any]) -> tuple[Any, ...]:
+    for i, value in enumerate(values):
+        if value in values[:i]:
+            first = values.index(value)
+            raise DeckError(f"{path}[{i}]: {_toml_value(value)} repeats {path}[{first}]; give each entry once")
+    return tuple(values)
+
+
+def _quoted(names: Mapping[str, Any] | tuple[str, ...]) -> str:
+    return ", ".join(f'"{name}"' for name in names)

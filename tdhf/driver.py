@@ -1,0 +1,253 @@
+"""Run a validated deck: ground state, then the optional response and dispersion calculations.
+
+The driver only sequences library calls and collects their typed results into a
+:class:`RunResult`; it does no numerics of its own, no printing and no file I/O.
+
+Non-convergence policy: a ground state that does not converge is *returned* with
+``converged=False`` (and the library's RuntimeWarning), never raised, so the caller can still
+write the results; the calculations that depend on it are skipped with a warning.  The command
+line turns :meth:`RunResult.convergence_problems` into exit code 3.
+
+>>> from tdhf.deck import parse_deck
+>>> result = run_deck(parse_deck('[atom]\\nelement = "He"\\n'))
+>>> print(result.converged, f"{result.ground_state.total_energy:.6f}")
+True -2.861680
+>>> sorted(result_to_json(result))
+['atom', 'ground_state', 'program', 'settings', 'warnings']
+"""
+
+from __future__ import annotations
+
+import importlib.metadata
+import logging
+import warnings
+from dataclasses import dataclass, field
+from typing import Any, Callable
+
+from tdhf.deck import Deck, DispersionSection, ResponseSection, parse_system_name
+from tdhf.ground_state import GroundState, solve_ground_state
+from tdhf.properties.response_properties import compute_response
+from tdhf.radial.mesh import GridSettings
+from tdhf.report.serialize import to_jsonable
+from tdhf.scf import ScfSettings
+from tdhf.system import System
+
+__all__ = ["ProgramInfo", "RunSettings", "RunResult", "run_deck", "result_to_json", "program_info",
+           "RESPONSE_FIELDS"]
+
+logger = logging.getLogger(__name__)
+
+#: RunResult fields filled by :func:`tdhf.properties.response_properties.compute_response`, in JSON order.
+RESPONSE_FIELDS = ("polarizabilities", "shielding", "quadrupole_shielding", "sum_rules", "excitations")
+
+Progress = Callable[[str], None]
+
+
+@dataclass(frozen=True)
+class ProgramInfo:
+    """Name and installed version of the program that made a result."""
+
+    name: str
+    version: str
+
+
+def program_info() -> ProgramInfo:
+    """``ProgramInfo("tdhf", <installed version>)``; version "unknown" if tdhf is not installed."""
+    try:
+        version = importlib.metadata.version("tdhf")
+    except importlib.metadata.PackageNotFoundError:
+        version = "unknown"
+    return ProgramInfo(name="tdhf", version=version)
+
+
+@dataclass(frozen=True)
+class RunSettings:
+    """Every effective option of a run (defaults filled in), stored with the results."""
+
+    grid: GridSettings
+    scf: ScfSettings
+    response: ResponseSection | None
+    dispersion: DispersionSection | None
+    schema: int
+
+
+@dataclass(frozen=True, kw_only=True)
+class RunResult:
+    """Everything a run computed.  The field names are the keys of the JSON output.
+
+    Attributes
+    ----------
+    atom : System
+        The system of the ``[atom]`` table.
+    ground_state : GroundState
+        Its Hartree-Fock ground state (hartree, bohr); check ``converged``.
+    polarizabilities, shielding, quadrupole_shielding, sum_rules, excitations : tuple
+        Rows from :func:`tdhf.properties.response_properties.compute_response` (empty without ``[response]``).
+    dispersion : tuple
+        Dispersion-coefficient rows, one per partner (empty without ``[dispersion]``).
+    warnings : tuple of str
+        One-line notes from every stage (box too small, not converged, skipped stages ...).
+    settings : RunSettings
+        The effective options.
+    program : ProgramInfo
+    partner_ground_states : tuple of GroundState
+        Ground states of the dispersion partners (not written to JSON).
+    """
+
+    atom: System
+    ground_state: GroundState
+    polarizabilities: tuple[Any, ...] = ()
+    shielding: tuple[Any, ...] = ()
+    quadrupole_shielding: tuple[Any, ...] = ()
+    sum_rules: tuple[Any, ...] = ()
+    excitations: tuple[Any, ...] = ()
+    dispersion: tuple[Any, ...] = ()
+    warnings: tuple[str, ...] = ()
+    rejected: tuple[str, ...] = ()
+    settings: RunSettings
+    program: ProgramInfo = field(default_factory=program_info)
+    partner_ground_states: tuple[GroundState, ...] = field(default=(), repr=False, metadata={"json": False})
+
+    @property
+    def converged(self) -> bool:
+        """True if every ground state of the run converged."""
+        return not self.convergence_problems()
+
+    def convergence_problems(self) -> tuple[str, ...]:
+        """One line per unconverged ground state or coupled response solve."""
+        response = tuple(
+            f"{self.atom.name}: coupled L={row.multipole} response at {row.frequency:g} hartree"
+            f"{' (imaginary)' if row.imaginary else ''} did not converge (GMRES)"
+            for row in self.polarizabilities
+            if not row.converged
+        )
+        return response + tuple(
+            f"{state.system.name}: Hartree-Fock did not converge after {state.iterations} iterations "
+            f"(DIIS, then damped DIIS; last: {state.scf_strategy}); final orbital change "
+            f"{state.orbital_change:.1e}, energy change {state.energy_change:.1e} hartree"
+            for state in (self.ground_state, *self.partner_ground_states)
+            if not state.converged
+        )
+
+
+def run_deck(deck: Deck, progress: Progress | None = None) -> RunResult:
+    """Compute everything a deck asks for.
+
+    Parameters
+    ----------
+    deck : Deck
+        A validated deck (:func:`tdhf.deck.load_deck`).
+    progress : callable, optional
+        Called with a short description (e.g. ``"ground state of Ne"``) as each stage starts.
+
+    Returns
+    -------
+    RunResult
+        Also when the SCF did not converge (``result.converged`` is False).
+
+    Raises
+    ------
+    InputError
+        A request found impossible while computing (e.g. an anion whose outermost orbital is
+        unbound, a frequency at an excitation energy).
+    ConvergenceError
+        If a response solver gives up.
+    """
+    report = progress or (lambda stage: None)
+    system = deck.atom.to_system()
+    settings = RunSettings(deck.grid, deck.scf, deck.response, deck.dispersion, deck.schema)
+    for name in ("grid", "scf", "response", "dispersion"):
+        logger.info("option %s: %s", name, getattr(settings, name))
+    report(f"ground state of {system.name}")
+    ground_state = solve_ground_state(system, deck.grid, deck.scf)
+    notes = list(ground_state.warnings)
+    own_notes: list[str] = []  # written here, so warned here; the library warns its own
+    fields: dict[str, Any] = {}
+    if not ground_state.converged:
+        own_notes += [f"{name}: skipped; the ground state of {system.name} did not converge"
+                      for name in ("response", "dispersion") if getattr(deck, name) is not None]
+    else:
+        if deck.response is not None:
+            report(f"response of {system.name}")
+            response_fields, library_notes, driver_notes = _run_response(ground_state, deck.response)
+            fields |= response_fields
+            notes += library_notes
+            own_notes += driver_notes
+        if deck.dispersion is not None:
+            rows, partners, library_notes, driver_notes = _run_dispersion(
+                ground_state, deck.dispersion, deck.grid, deck.scf, report)
+            fields |= {"dispersion": rows, "partner_ground_states": partners}
+            notes += library_notes
+            own_notes += driver_notes
+    for note in own_notes:
+        warnings.warn(note, RuntimeWarning, stacklevel=2)
+    return RunResult(atom=system, ground_state=ground_state, warnings=tuple(notes + own_notes),
+                     settings=settings, **fields)
+
+
+def _run_response(
+    ground_state: GroundState, section: ResponseSection
+) -> tuple[dict[str, tuple[Any, ...]], tuple[str, ...], tuple[str, ...]]:
+    """Response rows by RunResult field, the notes of tdhf.response, and the driver's notes."""
+    results = compute_response(
+        ground_state,
+        multipoles=section.multipoles,
+        frequencies=section.frequencies,
+        imaginary_frequencies=section.imaginary_frequencies,
+        coupled=section.coupled,
+    )
+    fields = {name: tuple(getattr(results, name)) for name in RESPONSE_FIELDS}
+    fields["rejected"] = tuple(results.rejected)
+    return fields, tuple(results.warnings), ()
+
+
+def _run_dispersion(
+    ground_state: GroundState,
+    section: DispersionSection,
+    grid: GridSettings,
+    scf: ScfSettings,
+    report: Progress,
+) -> tuple[tuple[Any, ...], tuple[GroundState, ...], tuple[str, ...], tuple[str, ...]]:
+    """Dispersion rows, partner ground states, the library's notes and the driver's notes.
+
+    Each partner is solved with the deck's grid and SCF settings; a partner that is the same
+    system as the atom (same name and configuration) reuses its ground state.
+    """
+    try:
+        from tdhf.properties.dispersion import compute_dispersion
+    except ImportError as err:
+        if err.name not in ("tdhf.properties", "tdhf.properties.dispersion"):
+            raise  # an import inside tdhf.properties failed: a bug
+        return (), (), (), ("dispersion: not available in this build",)
+    partners = []
+    for name in section.partners:
+        partner = System.from_input(*parse_system_name(name))
+        if partner == ground_state.system:
+            partners.append(ground_state)
+            continue
+        report(f"ground state of partner {name}")
+        partners.append(solve_ground_state(partner, grid, scf))
+    notes = tuple(note for state in partners if state is not ground_state for note in state.warnings)
+    unconverged = [state.system.name for state in partners if not state.converged]
+    if unconverged:
+        skipped = f"dispersion: skipped; the ground state of {', '.join(unconverged)} did not converge"
+        return (), tuple(partners), notes, (skipped,)
+    report(f"dispersion coefficients of {ground_state.system.name} with {', '.join(section.partners)}")
+    results = compute_dispersion(ground_state, tuple(partners), quadrature_points=section.quadrature_points)
+    return tuple(results.coefficients), tuple(partners), notes + tuple(results.warnings), ()
+
+
+def result_to_json(result: RunResult) -> dict[str, Any]:
+    """The JSON object of a run: RunResult fields as keys.
+
+    The response lists are left out when the deck had no ``[response]`` table, ``dispersion``
+    when it had no ``[dispersion]`` table; otherwise they are present, possibly empty.
+    """
+    data = to_jsonable(result)
+    if result.settings.response is None:
+        del data["rejected"]
+        for name in RESPONSE_FIELDS:
+            del data[name]
+    if result.settings.dispersion is None:
+        del data["dispersion"]
+    return data

@@ -1,0 +1,261 @@
+"""Response properties of one atom: polarizabilities, shielding factors, sum rules, excitations.
+
+Conventions (atomic units throughout):
+
+* multipole polarizability :math:`\\alpha_L(\\omega) = 2\\sum_n \\omega_n
+  |\\langle 0|\\sum_i r_i^L C_{L0}(\\hat r_i)|n\\rangle|^2 / (\\omega_n^2 - \\omega^2)`, with
+  :math:`C_{L0} = P_L(\\cos\\theta)`; hydrogen: 9/2, 15, 131.25 for L = 1, 2, 3;
+* dipole shielding :math:`\\beta(\\omega)`: field at the nucleus from the induced density per unit
+  applied field, :math:`\\beta = -\\int \\delta n_1\\, C_{10}/r^2\\,d^3r`; acceleration-form identity
+  :math:`\\beta(\\omega) = (N + \\omega^2 \\alpha_1(\\omega))/Z`, so :math:`\\beta(0) = N/Z`;
+* quadrupole shielding :math:`\\gamma_\\infty = -\\int \\delta n_2\\, C_{20}/r^3\\,d^3r` (field gradient
+  at the nucleus is :math:`(1 - \\gamma_\\infty)` times the applied one; antishielding is negative);
+* sum rules :math:`S_L(k) = \\sum_n \\omega_n^k f_n` with :math:`f_n = 2\\omega_n
+  |\\langle n|\\sum_i r_i^L C_{L0}|0\\rangle|^2`; :math:`S_1(0) = N` (Thomas–Reiche–Kuhn) and in
+  general :math:`S_L(0) = L \\sum_i \\langle r_i^{2L-2}\\rangle`, exact in RPA;
+  :math:`S_L(-2) = \\alpha_L(0)`.
+
+A real frequency at or above the first excitation of its multipole has no real polarizability:
+it is rejected (an entry in ``ResponseResults.rejected``) unless a broadening is given, while the
+other frequencies are still computed.  Near an excitation the first-order orbitals become diffuse:
+the box is enlarged automatically (ground state re-solved) until they have decayed at the wall.
+"""
+
+from __future__ import annotations
+
+import logging
+import math
+from dataclasses import dataclass, replace
+from typing import Sequence
+
+import numpy as np
+from threadpoolctl import threadpool_limits
+
+from tdhf.ground_state import GroundState, solve_ground_state
+from tdhf.properties.spectrum import Excitation, lowest_excitations
+from tdhf.response.solver import FirstOrderOrbitals, ResponseSolver
+
+__all__ = [
+    "Polarizability",
+    "DipoleShielding",
+    "QuadrupoleShielding",
+    "SumRule",
+    "ResponseResults",
+    "compute_response",
+    "NORMALIZATION",
+]
+
+logger = logging.getLogger(__name__)
+
+NORMALIZATION = "alpha_L = 2 sum_n |<0|sum_i r_i^L P_L(cos theta_i)|n>|^2 / (E_n - E_0), atomic units"
+
+#: The first-order orbitals must fall below this fraction of their maximum beyond 0.75 R.
+BOUNDARY_FRACTION = 1e-9
+#: Relative residual above which a coupled solve counts as not converged.
+COUPLING_RESIDUAL = 1e-8
+#: Frequencies within this relative distance of an excitation are treated as on it.
+RESONANCE_MARGIN = 1e-6
+
+
+@dataclass(frozen=True)
+class Polarizability:
+    """alpha_L at one frequency (bohr^(2L+1)); ``frequency`` is nu for ``imaginary`` (omega = i nu).
+
+    With ``broadening`` eta > 0 the frequency is omega + i eta and the imaginary parts are
+    non-zero; otherwise they are 0.  ``uncoupled`` is None above the first uncoupled pole.
+    """
+
+    multipole: int
+    frequency: float
+    imaginary: bool
+    coupled: float
+    uncoupled: float | None
+    broadening: float = 0.0
+    coupled_imaginary_part: float = 0.0
+    uncoupled_imaginary_part: float = 0.0
+    converged: bool = True
+    krylov_iterations: int = 0
+    r_max: float = 0.0
+
+
+@dataclass(frozen=True)
+class DipoleShielding:
+    """beta at one frequency: from the induced density (``direct``) and from (N + w^2 alpha)/Z."""
+
+    frequency: float
+    imaginary: bool
+    direct: float
+    from_polarizability: float
+    difference: float
+
+
+@dataclass(frozen=True)
+class QuadrupoleShielding:
+    """Sternheimer-type gamma_inf at one real or imaginary frequency, coupled and uncoupled."""
+
+    frequency: float
+    imaginary: bool
+    coupled: float
+    uncoupled: float | None
+
+
+@dataclass(frozen=True)
+class SumRule:
+    """S_L(k) coupled (``value``) and uncoupled; ``exact`` is the RPA identity where one exists."""
+
+    multipole: int
+    k: int
+    value: float
+    uncoupled: float
+    exact: float | None
+
+
+@dataclass(frozen=True)
+class ResponseResults:
+    """Everything computed for the requested multipoles and frequencies."""
+
+    polarizabilities: tuple[Polarizability, ...]
+    shielding: tuple[DipoleShielding, ...]
+    quadrupole_shielding: tuple[QuadrupoleShielding, ...]
+    sum_rules: tuple[SumRule, ...]
+    excitations: tuple[Excitation, ...]
+    warnings: tuple[str, ...]
+    rejected: tuple[str, ...]
+    normalization: str = NORMALIZATION
+
+
+def compute_response(
+    ground_state: GroundState,
+    multipoles: Sequence[int] = (1,),
+    frequencies: Sequence[float] = (0.0,),
+    imaginary_frequencies: Sequence[float] = (),
+    coupled: bool = True,
+    broadening: float = 0.0,
+    excitation_count: int = 3,
+) -> ResponseResults:
+    """Polarizabilities, shielding factors, sum rules and excitations of a solved atom.
+
+    The ground state is reused for all frequencies of a multipole (one solver per L); it is only
+    re-solved in a larger box when the first-order orbitals at a real frequency reach the wall.
+    With ``coupled=False`` the "coupled" columns also hold the uncoupled values.
+    """
+    rows: dict[str, list] = {key: [] for key in ("alpha", "beta", "gamma", "sums", "excitations")}
+    notes: list[str] = []
+    rejected: list[str] = []
+    with threadpool_limits(limits=1, user_api="blas"):
+        for L in multipoles:
+            _one_multipole(ground_state, L, frequencies, imaginary_frequencies, coupled, broadening,
+                           excitation_count, rows, notes, rejected)
+    return ResponseResults(
+        polarizabilities=tuple(rows["alpha"]),
+        shielding=tuple(rows["beta"]),
+        quadrupole_shielding=tuple(rows["gamma"]),
+        sum_rules=tuple(rows["sums"]),
+        excitations=tuple(rows["excitations"]),
+        warnings=tuple(notes),
+        rejected=tuple(rejected),
+    )
+
+
+_NAMES = {1: "dipole", 2: "quadrupole", 3: "octupole"}
+
+
+def _solver(state: GroundState, L: int) -> ResponseSolver:
+    return ResponseSolver(state.grid, state.system.Z, state.shells, state.orbital_energies, L)
+
+
+def _boundary_fraction(solver: ResponseSolver, first_order: FirstOrderOrbitals) -> float:
+    """Largest |rho(r)| beyond 0.75 R relative to the largest |rho| anywhere."""
+    values = np.abs(np.concatenate([first_order.plus, first_order.minus])) / np.sqrt(solver.grid.weights)
+    outer = solver.grid.r > 0.75 * solver.grid.r_max
+    return float(values[:, outer].max() / values.max()) if outer.any() else 0.0
+
+
+def _one_multipole(state, L, frequencies, imaginary_frequencies, coupled, broadening, count, rows, notes, rejected):
+    name = _NAMES.get(L, f"2^{L}-pole")
+    solver = _solver(state, L)
+    excitations = lowest_excitations(solver, count=count, coupled=coupled)
+    rows["excitations"].extend(excitations)
+    first = excitations[0].energy if excitations else math.inf
+    first_uncoupled = min(
+        float(values[virtual].min() - solver.orbital_energies[c.shell])
+        for c in solver.channels
+        for values, _, virtual in [solver.spectra[c.l_prime]]
+    )
+
+    allowed = []
+    for i, omega in enumerate(frequencies):
+        if broadening == 0.0 and omega >= first * (1.0 - RESONANCE_MARGIN):
+            rejected.append(
+                f"response.frequencies[{i}]: {omega:g} hartree is at or above the first {name} excitation"
+                f" ({first:.6f} hartree); a real alpha exists only below it: use imaginary_frequencies"
+                " or a broadening"
+            )
+            continue
+        allowed.append(float(omega))
+
+    # Box check at the real frequency closest to resonance; enlarge (automatic boxes only).
+    automatic = state.grid_settings.r_max is None
+    if allowed and broadening == 0.0:
+        closest = max(allowed)
+        for _ in range(3):
+            fraction = _boundary_fraction(solver, solver.solve(closest, coupled))
+            if fraction <= BOUNDARY_FRACTION:
+                break
+            if not automatic:
+                notes.append(
+                    f"grid.r_max: the {name} response at {closest:g} hartree has not decayed at the wall"
+                    f" (|rho| reaches {fraction:.1e} of its maximum beyond 0.75 R); increase r_max or leave it out"
+                )
+                break
+            bigger = replace(state.grid_settings, r_max=1.5 * state.r_max)
+            logger.info("%s response at %g: box enlarged to %.0f bohr", name, closest, bigger.r_max)
+            state = solve_ground_state(state.system, bigger, state.scf_settings)
+            solver = _solver(state, L)
+
+    electrons = state.system.electrons
+    for omega, imaginary in [(w, False) for w in allowed] + [(float(nu), True) for nu in imaginary_frequencies]:
+        argument = complex(omega, broadening) if not imaginary and broadening else (1j * omega if imaginary else omega)
+        coupled_solution = solver.solve(argument, coupled)
+        uncoupled_solution = solver.solve(argument, False)
+        alpha = complex(solver.polarizability(coupled_solution))
+        alpha_uncoupled = complex(solver.polarizability(uncoupled_solution))
+        uncoupled_valid = imaginary or broadening > 0.0 or omega < first_uncoupled * (1.0 - RESONANCE_MARGIN)
+        converged = coupled_solution.residual <= COUPLING_RESIDUAL
+        if not converged:
+            notes.append(
+                f"response: coupled {name} solve at {omega:g} hartree{' (imaginary)' if imaginary else ''} stopped"
+                f" at relative residual {coupled_solution.residual:.1e} after {coupled_solution.krylov_iterations}"
+                " Krylov steps (GMRES); the value is not converged"
+            )
+        rows["alpha"].append(
+            Polarizability(
+                multipole=L,
+                frequency=omega,
+                imaginary=imaginary,
+                coupled=alpha.real,
+                uncoupled=alpha_uncoupled.real if uncoupled_valid else None,
+                broadening=broadening if not imaginary else 0.0,
+                coupled_imaginary_part=alpha.imag if broadening and not imaginary else 0.0,
+                uncoupled_imaginary_part=alpha_uncoupled.imag if broadening and not imaginary else 0.0,
+                converged=converged,
+                krylov_iterations=coupled_solution.krylov_iterations,
+                r_max=state.r_max,
+            )
+        )
+        squared = -omega**2 if imaginary else omega**2
+        if L == 1 and not broadening:
+            direct = -complex(solver.expectation(coupled_solution, state.grid.r**-2.0)).real
+            identity = (electrons + squared * alpha.real) / state.system.Z
+            rows["beta"].append(DipoleShielding(omega, imaginary, direct, identity, direct - identity))
+        if L == 2 and not broadening:
+            gamma = -complex(solver.expectation(coupled_solution, state.grid.r**-3.0)).real
+            gamma_uncoupled = -complex(solver.expectation(uncoupled_solution, state.grid.r**-3.0)).real
+            rows["gamma"].append(QuadrupoleShielding(omega, imaginary, gamma, gamma_uncoupled if uncoupled_valid else None))
+
+    moments_coupled = (solver.energy_weighted_sum(coupled),) + solver.cauchy_moments(coupled)
+    moments_uncoupled = (solver.energy_weighted_sum(False),) + solver.cauchy_moments(False)
+    shells = state.shells
+    exact_trk = float(L * shells.occupations @ (shells.orbitals**2 @ state.grid.r ** (2 * L - 2)))
+    for k, value, uncoupled in zip((0, -2, -4, -6), moments_coupled, moments_uncoupled):
+        rows["sums"].append(SumRule(L, k, float(value), float(uncoupled), exact_trk if k == 0 else None))
