@@ -39,9 +39,10 @@ EIGEN_CUTOFF = 100.0
 class Excitation:
     """One discrete excitation of multipole L (hartree; dimensionless f).
 
-    ``energy`` and ``oscillator_strength`` come from the pole of the full response;
+    ``energy`` and ``oscillator_strength`` come from the pole of the full response (``refined``);
     ``eigen_energy`` and ``eigen_oscillator_strength`` from the RPA eigenproblem (route 1),
-    kept as a cross-check.  ``bound`` is False above the ionization threshold (there the
+    kept as a cross-check.  If the pole search fails, ``refined`` is False and the route-1 values
+    are repeated (never silently dropped).  ``bound`` is False above the ionization threshold (there the
     state is a pseudo-state of the discretized continuum).
     """
 
@@ -51,6 +52,7 @@ class Excitation:
     eigen_energy: float
     eigen_oscillator_strength: float
     bound: bool
+    refined: bool = True
 
 
 def _particle_hole_basis(solver: ResponseSolver, cutoff: float):
@@ -102,18 +104,29 @@ def rpa_eigen_excitations(solver: ResponseSolver, cutoff: float | None = None, c
     return energies, strengths
 
 
-def refine_pole(solver: ResponseSolver, guess: float, coupled: bool = True) -> tuple[float, float]:
+def refine_pole(
+    solver: ResponseSolver,
+    guess: float,
+    coupled: bool = True,
+    bounds: tuple[float, float] | None = None,
+) -> tuple[float, float]:
     r"""Route 2: the pole of alpha_L(omega) near ``guess`` and its oscillator strength.
 
     Near a pole :math:`g(x) = 1/\alpha` with :math:`x = \omega^2` is nearly linear,
     :math:`g \approx (\omega_n^2 - x)/f_n`, so secant steps in x converge in a few response solves
     without evaluating the ill-conditioned equations right at the pole.
 
+    ``bounds`` (hartree) is the interval the pole must stay in (default: guess/2 to 2 guess);
+    callers pass the midpoints to the neighbouring eigenvalues so no pole is found twice.
+
     Raises
     ------
     RuntimeError
-        If the secant iteration leaves the neighbourhood of the guess or does not settle.
+        If the secant iteration leaves the bounds or does not settle.
     """
+    low, high = bounds if bounds is not None else (0.5 * guess, 2.0 * guess)
+    # Start well inside the bounds: neighbouring poles bend 1/alpha away from a straight line.
+    offset = min(POLE_OFFSET, 0.1 * min(guess - low, high - guess) / guess)
 
     def inverse(x: float) -> float:
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -122,7 +135,7 @@ def refine_pole(solver: ResponseSolver, guess: float, coupled: bool = True) -> t
         # Exactly at a pole (an uncoupled or one-electron guess is exact) alpha is infinite: g = 0.
         return 1.0 / value if np.isfinite(value) and value != 0.0 else 0.0
 
-    x0, x1 = (guess * (1.0 + POLE_OFFSET)) ** 2, (guess * (1.0 - POLE_OFFSET)) ** 2
+    x0, x1 = (guess * (1.0 + offset)) ** 2, (guess * (1.0 - offset)) ** 2
     g0, g1 = inverse(x0), inverse(x1)
     for _ in range(POLE_MAX_STEPS):
         slope = (g1 - g0) / (x1 - x0)
@@ -130,7 +143,7 @@ def refine_pole(solver: ResponseSolver, guess: float, coupled: bool = True) -> t
         if g1 == 0.0:
             x2 = x1
             break
-        if not 0.25 * guess**2 < x2 < 4.0 * guess**2:
+        if not low**2 < x2 < high**2:
             raise RuntimeError(f"no pole of the response near {guess:.6f} hartree")
         if abs(x2 - x1) < POLE_TOLERANCE * x2:
             break
@@ -158,14 +171,18 @@ def lowest_excitations(solver: ResponseSolver, count: int = 3, coupled: bool = T
     ionization = -float(solver.orbital_energies.max())
     energies, strengths = rpa_eigen_excitations(solver, coupled=coupled)
     found = []
-    for energy, strength in zip(energies, strengths):
-        if strength < 1e-10 or energy <= 0.0:
-            continue
+    visible = [(e, f) for e, f in zip(energies, strengths) if f >= 1e-10 and e > 0.0]
+    for i, (energy, strength) in enumerate(visible):
+        below = 0.5 * (visible[i - 1][0] + energy) if i else 0.5 * energy
+        above = 0.5 * (visible[i + 1][0] + energy) if i + 1 < len(visible) else 2.0 * energy
         try:
-            pole, residue = refine_pole(solver, float(energy), coupled)
+            pole, residue = refine_pole(solver, float(energy), coupled, bounds=(below, above))
+            refined = True
         except RuntimeError:
-            continue
-        found.append(Excitation(solver.multipole, pole, residue, float(energy), float(strength), pole < ionization))
+            pole, residue, refined = float(energy), float(strength), False
+        found.append(
+            Excitation(solver.multipole, pole, residue, float(energy), float(strength), pole < ionization, refined)
+        )
         if len(found) == count:
             break
     return tuple(found)
