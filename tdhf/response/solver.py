@@ -150,22 +150,44 @@ class ResponseSolver:
         self.occupied_overlap = overlap_with_occupied
 
     def _build_coupling(self) -> None:
-        """Ground-state exchange densities Y^k_ab / r and the per-channel-pair angular factors."""
+        """Angular factors as dense tensors over (k, target channel, source channel).
+
+        ``_first[t, s]`` is :math:`\sum_k s_1 Y^k[P_a P_b]/r` at the nodes (ground-state
+        exchange potentials times angular factors); ``_second[k, t, s]`` holds :math:`s_2`.
+        """
         L = self.multipole
         p = self.shells.orbitals
-        self._exchange_terms: list[list[tuple[int, int, float, float]]] = []
-        needed_pair_potentials: dict[tuple[int, int, int], np.ndarray] = {}
-        for target in self.channels:
-            terms = []
+        count = len(self.channels)
+        k_count = self.kernels.shape[0]
+        self._first = np.zeros((count, count, self.grid.size))
+        self._second = np.zeros((k_count, count, count))
+        pair_potentials: dict[tuple[int, int, int], np.ndarray] = {}
+        for t, target in enumerate(self.channels):
             for s, source in enumerate(self.channels):
                 for k, s1, s2 in response_exchange_factors(L, target.l, target.l_prime, source.l, source.l_prime):
-                    terms.append((s, k, s1, s2))
+                    self._second[k, t, s] = s2
                     if s1:
                         key = (min(target.shell, source.shell), max(target.shell, source.shell), k)
-                        if key not in needed_pair_potentials:
-                            needed_pair_potentials[key] = self.kernels[k] @ (p[key[0]] * p[key[1]])
-            self._exchange_terms.append(terms)
-        self._pair_potentials = needed_pair_potentials
+                        if key not in pair_potentials:
+                            pair_potentials[key] = self.kernels[k] @ (p[key[0]] * p[key[1]])
+                        self._first[t, s] += s1 * pair_potentials[key]
+        self._target_shell = np.array([c.shell for c in self.channels])
+        self._weights = np.array([c.weight for c in self.channels])
+        # Second-kind exchange, per k: the (target shell a, source channel s) pairs whose
+        # Y^k[P_a rho_s] is needed, and the matrix scattering them onto target channels.
+        self._second_terms = []
+        for k in range(k_count):
+            pairs = sorted({(self._target_shell[t], s) for t, s in zip(*np.nonzero(self._second[k]))})
+            if not pairs:
+                continue
+            index = {pair: r for r, pair in enumerate(pairs)}
+            scatter = np.zeros((count, len(pairs)))
+            for t, s in zip(*np.nonzero(self._second[k])):
+                scatter[t, index[(self._target_shell[t], s)]] = self._second[k, t, s]
+            shells_of_rows = np.array([a for a, _ in pairs])
+            sources_of_rows = np.array([s for _, s in pairs])
+            source_orbitals = p[self._target_shell[sources_of_rows]]  # P_b of each row's source channel
+            self._second_terms.append((k, shells_of_rows, sources_of_rows, scatter, source_orbitals))
 
     # ----------------------------------------------------------------- operators
     def perturbation(self, radial: np.ndarray | None = None) -> np.ndarray:
@@ -186,39 +208,23 @@ class ResponseSolver:
         return out
 
     def coupling(self, plus: np.ndarray, minus: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """Induced-potential terms :math:`-u P_a + X^\\pm` of the right-hand sides for (rho+, rho-)."""
+        """Induced-potential terms :math:`-u P_a + X^\pm` of the right-hand sides for (rho+, rho-).
+
+        ``plus`` and ``minus`` have shape (..., n_channels, n): leading axes are a batch.
+        """
+        p_target = self.shells.orbitals[self._target_shell]  # (T, n)
+        density = np.einsum("t,tn,...tn->...n", self._weights, p_target, plus + minus)
+        induced = density @ self.kernels[self.multipole]  # kernels are symmetric
+        direct = -induced[..., None, :] * p_target
+        out_plus = direct + np.einsum("tsn,...sn->...tn", self._first, plus)
+        out_minus = direct + np.einsum("tsn,...sn->...tn", self._first, minus)
         p = self.shells.orbitals
-        L = self.multipole
-        total = plus + minus
-        density = sum(c.weight * p[c.shell] * total[t] for t, c in enumerate(self.channels))
-        induced = self.kernels[L] @ density
-        out_plus = np.array([-induced * p[c.shell] for c in self.channels], dtype=total.dtype)
-        out_minus = out_plus.copy()
-        # Exchange: second kind needs Y^k[P_a rho_s]; batch them per k as one matrix product.
-        requests: dict[int, dict[tuple[int, int], int]] = {}
-        for target, terms in zip(self.channels, self._exchange_terms):
-            for s, k, _, s2 in terms:
-                if s2:
-                    requests.setdefault(k, {}).setdefault((target.shell, s), len(requests.get(k, {})))
-        solved: dict[int, tuple[np.ndarray, np.ndarray]] = {}
-        for k, index in requests.items():
-            keys = sorted(index, key=index.get)
-            columns_plus = np.array([p[a] * plus[s] for a, s in keys]).T
-            columns_minus = np.array([p[a] * minus[s] for a, s in keys]).T
-            solved[k] = (self.kernels[k] @ columns_plus, self.kernels[k] @ columns_minus)
-        for t, (target, terms) in enumerate(zip(self.channels, self._exchange_terms)):
-            for s, k, s1, s2 in terms:
-                b = self.channels[s].shell
-                if s1:
-                    key = (min(target.shell, b), max(target.shell, b), k)
-                    pair = self._pair_potentials[key]
-                    out_plus[t] += s1 * pair * plus[s]
-                    out_minus[t] += s1 * pair * minus[s]
-                if s2:
-                    column = requests[k][(target.shell, s)]
-                    potential_plus, potential_minus = solved[k]
-                    out_plus[t] += s2 * potential_minus[:, column] * p[b]
-                    out_minus[t] += s2 * potential_plus[:, column] * p[b]
+        for k, shells_of_rows, sources_of_rows, scatter, source_orbitals in self._second_terms:
+            # Y^k[P_a rho_s]/r for the needed (a, s) pairs: one matrix product per k and sign.
+            pair_plus = (p[shells_of_rows] * plus[..., sources_of_rows, :]) @ self.kernels[k]
+            pair_minus = (p[shells_of_rows] * minus[..., sources_of_rows, :]) @ self.kernels[k]
+            out_plus += scatter @ (pair_minus * source_orbitals)
+            out_minus += scatter @ (pair_plus * source_orbitals)
         return out_plus, out_minus
 
     # ----------------------------------------------------------------- solve
