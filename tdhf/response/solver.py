@@ -150,7 +150,7 @@ class ResponseSolver:
         self.occupied_overlap = overlap_with_occupied
 
     def _build_coupling(self) -> None:
-        """Angular factors as dense tensors over (k, target channel, source channel).
+        r"""Angular factors as dense tensors over (k, target channel, source channel).
 
         ``_first[t, s]`` is :math:`\sum_k s_1 Y^k[P_a P_b]/r` at the nodes (ground-state
         exchange potentials times angular factors); ``_second[k, t, s]`` holds :math:`s_2`.
@@ -208,7 +208,7 @@ class ResponseSolver:
         return out
 
     def coupling(self, plus: np.ndarray, minus: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """Induced-potential terms :math:`-u P_a + X^\pm` of the right-hand sides for (rho+, rho-).
+        r"""Induced-potential terms :math:`-u P_a + X^\pm` of the right-hand sides for (rho+, rho-).
 
         ``plus`` and ``minus`` have shape (..., n_channels, n): leading axes are a batch.
         """
@@ -292,7 +292,7 @@ class ResponseSolver:
         return out
 
     def diagonal(self, vectors: np.ndarray) -> np.ndarray:
-        """Apply :math:`(F_{l'} - \varepsilon_a) Q_{l'}` to each channel row."""
+        r"""Apply :math:`(F_{l'} - \varepsilon_a) Q_{l'}` to each channel row."""
         out = np.empty_like(vectors)
         for l_t, (values, eigenvectors, virtual) in self.spectra.items():
             rows = [t for t, c in enumerate(self.channels) if c.l_prime == l_t]
