@@ -63,6 +63,8 @@ class Polarizability:
 
     With ``broadening`` eta > 0 the frequency is omega + i eta and the imaginary parts are
     non-zero; otherwise they are 0.  ``uncoupled`` is None above the first uncoupled pole.
+    ``velocity_form`` is the coupled dipole value from the velocity-gauge perturbation (equal to
+    ``coupled`` in a complete basis, so their difference measures the grid; None for L > 1).
     """
 
     multipole: int
@@ -76,6 +78,7 @@ class Polarizability:
     converged: bool = True
     krylov_iterations: int = 0
     r_max: float = 0.0
+    velocity_form: float | None = None
 
 
 @dataclass(frozen=True)
@@ -241,6 +244,9 @@ def _one_multipole(state, L, frequencies, imaginary_frequencies, coupled, broade
                 converged=converged,
                 krylov_iterations=coupled_solution.krylov_iterations,
                 r_max=state.r_max,
+                velocity_form=(
+                    complex(solver.velocity_polarizability(argument, coupled)).real if L == 1 and not broadening else None
+                ),
             )
         )
         squared = -omega**2 if imaginary else omega**2

@@ -340,6 +340,42 @@ class ResponseSolver:
         value = sum(c.weight * (radial * p[c.shell]) @ total[t] for t, c in enumerate(self.channels))
         return complex(value) if np.iscomplexobj(value) else float(value)
 
+    def velocity_perturbation(self) -> np.ndarray:
+        r"""Right-hand sides of the dipole velocity form, :math:`-\partial_z \phi_a` per channel.
+
+        The gradient formula gives, with the same angular factors as :math:`z = r C_{10}`, the radial
+        functions :math:`P' - (l+1)P/r` for l' = l + 1 and :math:`P' + l P/r` for l' = l - 1.
+        """
+        if self.multipole != 1:
+            raise InputError("the velocity form is defined here for the dipole (L = 1) only")
+        p = self.shells.orbitals
+        slope = p @ self.grid.derivative.T  # DVR coefficients of P'
+        rows = []
+        for c in self.channels:
+            centrifugal = -(c.l + 1) if c.l_prime == c.l + 1 else c.l
+            rows.append(-(slope[c.shell] + centrifugal * p[c.shell] / self.grid.r))
+        return self.project(np.array(rows))
+
+    def velocity_polarizability(self, frequency: complex = 0.0, coupled: bool = True) -> complex:
+        r"""Dipole polarizability in the velocity form, equal to the length form in a complete basis.
+
+        With :math:`d_n = \langle n|\partial_z|0\rangle = -\omega_n z_{n0}` and
+        :math:`R(\omega) = \sum_n 2\omega_n |d_n|^2/(\omega_n^2 - \omega^2)`
+        (from the solve with right-hand sides (b, -b)),
+        :math:`\alpha_V(\omega) = \sum_n 2|d_n|^2 / (\omega_n(\omega_n^2-\omega^2)) = (R(\omega) - R(0))/\omega^2`;
+        at :math:`\omega = 0` the derivative :math:`2 b^T W (A-B)^{-1}(A+B)^{-1}(A-B)^{-1} b` is used.
+        """
+        b = self.velocity_perturbation()
+        static = self.solve(0.0, coupled, rhs=(b, -b))
+        if frequency == 0:
+            y = static.plus
+            z = self.solve(0.0, coupled, rhs=(y, y)).plus
+            return 2.0 * self.weighted_dot(y, z)
+        dynamic = self.solve(frequency, coupled, rhs=(b, -b))
+        response = sum(c.weight * (b[t] @ (dynamic.plus[t] - dynamic.minus[t])) for t, c in enumerate(self.channels))
+        response_static = self.weighted_dot(b, static.plus - static.minus)
+        return (response - response_static) / frequency**2
+
     def polarizability(self, first_order: FirstOrderOrbitals) -> complex:
         r""":math:`\\alpha_L(\\omega) = -\\int r^L C_{L0}\\,\\delta n` (a.u., normalization in the module docstring)."""
         return -self.expectation(first_order, self.grid.r**self.multipole)
