@@ -38,7 +38,9 @@ __all__ = ["ProgramInfo", "RunSettings", "RunResult", "run_deck", "result_to_jso
 logger = logging.getLogger(__name__)
 
 #: RunResult fields filled by :func:`tdhf.properties.response_properties.compute_response`, in JSON order.
-RESPONSE_FIELDS = ("polarizabilities", "shielding", "quadrupole_shielding", "sum_rules", "excitations")
+RESPONSE_FIELDS = (
+    "polarizabilities", "shielding", "quadrupole_shielding", "sum_rules", "excitations", "strength_distribution",
+)
 
 Progress = Callable[[str], None]
 
@@ -101,6 +103,7 @@ class RunResult:
     quadrupole_shielding: tuple[Any, ...] = ()
     sum_rules: tuple[Any, ...] = ()
     excitations: tuple[Any, ...] = ()
+    strength_distribution: tuple[Any, ...] = ()
     dispersion: tuple[Any, ...] = ()
     warnings: tuple[str, ...] = ()
     rejected: tuple[str, ...] = ()

@@ -32,7 +32,13 @@ import numpy as np
 from threadpoolctl import threadpool_limits
 
 from tdhf.ground_state import GroundState, solve_ground_state
-from tdhf.properties.spectrum import Excitation, lowest_excitations
+from tdhf.properties.spectrum import (
+    Excitation,
+    StrengthDistribution,
+    lowest_excitations,
+    rpa_eigen_excitations,
+    strength_distribution,
+)
 from tdhf.response.solver import FirstOrderOrbitals, ResponseSolver
 
 __all__ = [
@@ -122,6 +128,7 @@ class ResponseResults:
     quadrupole_shielding: tuple[QuadrupoleShielding, ...]
     sum_rules: tuple[SumRule, ...]
     excitations: tuple[Excitation, ...]
+    strength_distribution: tuple[StrengthDistribution, ...]
     warnings: tuple[str, ...]
     rejected: tuple[str, ...]
     normalization: str = NORMALIZATION
@@ -142,7 +149,7 @@ def compute_response(
     re-solved in a larger box when the first-order orbitals at a real frequency reach the wall.
     With ``coupled=False`` the "coupled" columns also hold the uncoupled values.
     """
-    rows: dict[str, list] = {key: [] for key in ("alpha", "beta", "gamma", "sums", "excitations")}
+    rows: dict[str, list] = {key: [] for key in ("alpha", "beta", "gamma", "sums", "excitations", "distribution")}
     notes: list[str] = []
     rejected: list[str] = []
     with threadpool_limits(limits=1, user_api="blas"):
@@ -155,6 +162,7 @@ def compute_response(
         quadrupole_shielding=tuple(rows["gamma"]),
         sum_rules=tuple(rows["sums"]),
         excitations=tuple(rows["excitations"]),
+        strength_distribution=tuple(rows["distribution"]),
         warnings=tuple(notes),
         rejected=tuple(rejected),
     )
@@ -177,7 +185,8 @@ def _boundary_fraction(solver: ResponseSolver, first_order: FirstOrderOrbitals) 
 def _one_multipole(state, L, frequencies, imaginary_frequencies, coupled, broadening, count, rows, notes, rejected):
     name = _NAMES.get(L, f"2^{L}-pole")
     solver = _solver(state, L)
-    excitations = lowest_excitations(solver, count=count, coupled=coupled)
+    eigen = rpa_eigen_excitations(solver, coupled=coupled)
+    excitations = lowest_excitations(solver, count=count, coupled=coupled, eigen=eigen)
     rows["excitations"].extend(excitations)
     first = excitations[0].energy if excitations else math.inf
     first_uncoupled = min(
@@ -263,5 +272,6 @@ def _one_multipole(state, L, frequencies, imaginary_frequencies, coupled, broade
     moments_uncoupled = (solver.energy_weighted_sum(False),) + solver.cauchy_moments(False)
     shells = state.shells
     exact_trk = float(L * shells.occupations @ (shells.orbitals**2 @ state.grid.r ** (2 * L - 2)))
+    rows["distribution"].append(strength_distribution(solver, eigen, float(moments_coupled[0])))
     for k, value, uncoupled in zip((0, -2, -4, -6), moments_coupled, moments_uncoupled):
         rows["sums"].append(SumRule(L, k, float(value), float(uncoupled), exact_trk if k == 0 else None))

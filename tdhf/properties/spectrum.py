@@ -27,7 +27,14 @@ import scipy.linalg
 
 from tdhf.response.solver import ResponseSolver
 
-__all__ = ["Excitation", "rpa_eigen_excitations", "refine_pole", "lowest_excitations"]
+__all__ = [
+    "Excitation",
+    "StrengthDistribution",
+    "rpa_eigen_excitations",
+    "refine_pole",
+    "lowest_excitations",
+    "strength_distribution",
+]
 
 #: Default cutoff on particle-hole energies for route 1, hartree.  Squared energies up to 1e6
 #: keep M well conditioned (round-off ~1e-16 * 1e6 in omega^2); the low excitations then sit
@@ -178,10 +185,18 @@ POLE_MAX_STEPS = 12
 RESIDUE_STEP = 1e-6
 
 
-def lowest_excitations(solver: ResponseSolver, count: int = 3, coupled: bool = True) -> tuple[Excitation, ...]:
-    """The ``count`` lowest excitations with f > 1e-10, refined as poles; bound ones first."""
+def lowest_excitations(
+    solver: ResponseSolver,
+    count: int = 3,
+    coupled: bool = True,
+    eigen: tuple[np.ndarray, np.ndarray] | None = None,
+) -> tuple[Excitation, ...]:
+    """The ``count`` lowest excitations with f > 1e-10, refined as poles of the full response.
+
+    ``eigen`` reuses a route-1 result (energies, strengths) instead of recomputing it.
+    """
     ionization = -float(solver.orbital_energies.max())
-    energies, strengths = rpa_eigen_excitations(solver, coupled=coupled)
+    energies, strengths = eigen if eigen is not None else rpa_eigen_excitations(solver, coupled=coupled)
     found = []
     visible = [(e, f) for e, f in zip(energies, strengths) if f >= 1e-10 and e > 0.0]
     for i, (energy, strength) in enumerate(visible):
@@ -198,3 +213,36 @@ def lowest_excitations(solver: ResponseSolver, count: int = 3, coupled: bool = T
         if len(found) == count:
             break
     return tuple(found)
+
+
+@dataclass(frozen=True)
+class StrengthDistribution:
+    """Where the oscillator strength of multipole L sits (route-1 spectrum, dimensionless sums).
+
+    ``continuum_threshold`` (hartree) is the ionization energy -epsilon_HOMO: route-1 states above
+    it are pseudo-states of the box-discretized continuum.  ``discrete_sum`` + ``continuum_sum``
+    cover the states below the cutoff; ``beyond_cutoff`` = ``total`` - both, where ``total`` is the
+    exact S(0) of the same discrete space (so the split always adds up to the sum rule).
+    """
+
+    multipole: int
+    continuum_threshold: float
+    discrete_states: int
+    discrete_sum: float
+    continuum_sum: float
+    beyond_cutoff: float
+    total: float
+    cutoff: float
+
+
+def strength_distribution(
+    solver: ResponseSolver, eigen: tuple[np.ndarray, np.ndarray], total: float, cutoff: float = EIGEN_CUTOFF
+) -> StrengthDistribution:
+    """Split S(0) = ``total`` into bound states, discretized continuum below the cutoff, and the rest."""
+    energies, strengths = eigen
+    threshold = -float(solver.orbital_energies.max())
+    bound = energies < threshold
+    discrete, continuum = float(strengths[bound].sum()), float(strengths[~bound].sum())
+    return StrengthDistribution(
+        solver.multipole, threshold, int(bound.sum()), discrete, continuum, total - discrete - continuum, total, cutoff
+    )

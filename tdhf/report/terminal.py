@@ -91,6 +91,7 @@ ROW_TABLES: dict[str, tuple[str, tuple[Column, ...]]] = {
         Column("axis", _axis),
         Column("coupled, TDHF\n(a.u.)", _field("coupled"), ".10g"),
         Column("uncoupled\n(a.u.)", _field("uncoupled"), ".10g"),
+        Column("velocity form\n(a.u.)", _field("velocity_form"), ".10g"),
     )),
     "shielding": ("Dipole shielding factor (dimensionless)", (
         Column("frequency\n(hartree)", _field("frequency"), ".6f"),
@@ -106,19 +107,32 @@ ROW_TABLES: dict[str, tuple[str, tuple[Column, ...]]] = {
     "sum_rules": ("Oscillator-strength sums S(k)", (
         Column("L", _field("multipole")),
         Column("k", _field("k")),
-        Column("S(k)\n(a.u.)", _field("value"), ".10g"),
+        Column("S(k), TDHF\n(a.u.)", _field("value"), ".10g"),
+        Column("uncoupled\n(a.u.)", _field("uncoupled"), ".10g"),
+        Column("exact RPA\n(a.u.)", _field("exact"), ".10g"),
     )),
     "excitations": ("Excitations", (
         Column("L", _field("multipole")),
         Column("energy\n(hartree)", _field("energy"), ".8f"),
         Column("energy\n(eV)", _in_ev("energy"), ".6f"),
         Column("oscillator strength\n(1)", _field("oscillator_strength"), ".6g"),
+        Column("bound", lambda row: "yes" if _field("bound")(row) else "no"),
+    )),
+    "strength_distribution": ("Where the oscillator strength lies (S(0) split)", (
+        Column("L", _field("multipole")),
+        Column("threshold\n(hartree)", _field("continuum_threshold"), ".6f"),
+        Column("bound states\n(count)", _field("discrete_states")),
+        Column("bound\n(sum f)", _field("discrete_sum"), ".8g"),
+        Column("continuum\n(sum f)", _field("continuum_sum"), ".8g"),
+        Column("above cutoff\n(sum f)", _field("beyond_cutoff"), ".8g"),
+        Column("S(0)\n(sum f)", _field("total"), ".10g"),
     )),
     "dispersion": ("Dispersion coefficients", (
         Column("pair", _field("pair")),
         Column("C6\n(hartree bohr^6)", _field("C6"), ".8g"),
         Column("C8\n(hartree bohr^8)", _field("C8"), ".8g"),
         Column("C10\n(hartree bohr^10)", _field("C10"), ".8g"),
+        Column("C6 error\n(estimate)", _field("C6_error"), ".1e"),
     )),
 }
 
