@@ -26,7 +26,7 @@ from typing import Any, Callable
 
 from tdhf.deck import Deck, DispersionSection, ResponseSection, parse_system_name
 from tdhf.ground_state import GroundState, solve_ground_state
-from tdhf.properties.response_properties import compute_response
+from tdhf.properties.response_properties import NORMALIZATION, compute_response
 from tdhf.radial.mesh import GridSettings
 from tdhf.report.serialize import to_jsonable
 from tdhf.scf import ScfSettings
@@ -43,6 +43,24 @@ RESPONSE_FIELDS = (
 )
 
 Progress = Callable[[str], None]
+
+
+@dataclass(frozen=True)
+class Conventions:
+    """The units and normalizations of every number in a result, written into the JSON."""
+
+    units: str = "atomic units: hartree, bohr; alpha_L in bohr^(2L+1); C_n in hartree bohr^n"
+    polarizability: str = NORMALIZATION
+    dipole_shielding: str = "beta = field at the nucleus from the induced density per unit applied field; beta(0) = N/Z"
+    quadrupole_shielding: str = (
+        "gamma_inf: field gradient at the nucleus = (1 - gamma_inf) x applied gradient (negative: antishielding)"
+    )
+    oscillator_strength: str = "f_n = 2 omega_n |<n|sum_i r_i^L P_L(cos theta_i)|0>|^2; sum_n f_n = S(0) (= N for L = 1)"
+    uncoupled: str = "uncoupled: no induced Coulomb/exchange; sum over the virtual spectrum of the ground-state Fock operator"
+    dispersion: str = (
+        "C6 = (3/pi) int a1 a1, C8 = (15/(2 pi)) int (a1 a2 + a2 a1), C10 = (14/pi) int (a1 a3 + a3 a1)"
+        " + (35/pi) int a2 a2, a_L = alpha_L(i w)"
+    )
 
 
 @dataclass(frozen=True)
@@ -109,6 +127,7 @@ class RunResult:
     rejected: tuple[str, ...] = ()
     settings: RunSettings
     program: ProgramInfo = field(default_factory=program_info)
+    conventions: Conventions = field(default_factory=Conventions)
     partner_ground_states: tuple[GroundState, ...] = field(default=(), repr=False, metadata={"json": False})
 
     @property

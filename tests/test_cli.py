@@ -32,8 +32,9 @@ HE_HF_LIMIT = -2.8616799956
 HE_ATOL = 1e-9
 
 HE_DECK = '[atom]\nelement = "He"\n'
-TOP_LEVEL_KEYS = ["atom", "ground_state", "warnings", "settings", "program"]
-ALL_KEYS = ["atom", "ground_state", *RESPONSE_FIELDS, "dispersion", "warnings", "settings", "program"]
+TOP_LEVEL_KEYS = ["atom", "ground_state", "warnings", "settings", "program", "conventions"]
+ALL_KEYS = ["atom", "ground_state", *RESPONSE_FIELDS, "dispersion", "warnings", "rejected", "settings", "program",
+            "conventions"]
 
 
 # --- constants -------------------------------------------------------------------------------
