@@ -28,6 +28,7 @@ A deck has one table per part of the calculation; only ``[atom]`` is required::
     frequencies = [0.0, 0.1]       # real frequencies, hartree
     imaginary_frequencies = [0.5]  # imaginary frequencies, hartree
     coupled = true                 # also solve the coupled (TDHF) equations, not only uncoupled
+    broadening = 0.0               # eta > 0: complex frequencies omega + i eta (a broadened spectrum)
 
     [dispersion]                   # optional: dispersion coefficients with partner systems
     partners = ["He", "Na+"]       # each paired with the [atom] system
@@ -109,6 +110,7 @@ class ResponseSection:
     frequencies: tuple[float, ...] = (0.0,)
     imaginary_frequencies: tuple[float, ...] = ()
     coupled: bool = True
+    broadening: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -265,7 +267,10 @@ def _response(table: Mapping[str, Any]) -> ResponseSection:
     if not any(frequencies.values()):
         raise DeckError("response: both frequencies and imaginary_frequencies are empty; give at least one")
     coupled = _boolean("response.coupled", table.get("coupled", defaults.coupled))
-    return ResponseSection(multipoles=multipoles, coupled=coupled, **frequencies)
+    broadening = _number("response.broadening", table.get("broadening", defaults.broadening))
+    if not 0.0 <= broadening <= 1.0:
+        raise DeckError(f"response.broadening: {broadening!r} hartree must be in [0, 1]; 0 means real frequencies")
+    return ResponseSection(multipoles=multipoles, coupled=coupled, broadening=broadening, **frequencies)
 
 
 def _frequencies(path: str, value: Any) -> tuple[float, ...]:

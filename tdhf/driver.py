@@ -217,6 +217,7 @@ def _run_response(
         frequencies=section.frequencies,
         imaginary_frequencies=section.imaginary_frequencies,
         coupled=section.coupled,
+        broadening=section.broadening,
     )
     fields = {name: tuple(getattr(results, name)) for name in RESPONSE_FIELDS}
     fields["rejected"] = tuple(results.rejected)

@@ -132,7 +132,7 @@ def test_response_api_is_called_with_the_deck_section(monkeypatch):
     """Wiring only: a stand-in compute_response records its arguments and returns marked rows."""
     calls = []
 
-    def compute_response(ground_state, multipoles, frequencies, imaginary_frequencies, coupled):
+    def compute_response(ground_state, multipoles, frequencies, imaginary_frequencies, coupled, broadening):
         calls.append((ground_state.system.name, multipoles, frequencies, imaginary_frequencies, coupled))
         return types.SimpleNamespace(**{name: [{"from": name}] for name in RESPONSE_FIELDS}, warnings=["note"],
                                      rejected=[])
@@ -268,7 +268,7 @@ def test_cli_response_options_build_the_response_section(tmp_path):
     assert "Traceback" not in run.stderr
     data = json.loads((tmp_path / "out.json").read_text())
     assert data["settings"]["response"] == {"multipoles": [1, 2], "frequencies": [0.0, 0.1],
-                                            "imaginary_frequencies": [0.5], "coupled": True}
+                                            "imaginary_frequencies": [0.5], "coupled": True, "broadening": 0.0}
     assert all(name in data for name in RESPONSE_FIELDS) and "dispersion" not in data
     for warning in data["warnings"]:
         assert f"tdhf: warning: {warning}" in run.stderr.splitlines()

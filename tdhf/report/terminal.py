@@ -44,6 +44,7 @@ class Column:
     header: str
     value: Callable[[Any], Any]
     format: str = ".8g"
+    optional: bool = False  # left out when every row has None or 0 (e.g. imaginary parts without broadening)
 
 
 def _field(name: str) -> Callable[[Any], Any]:
@@ -92,6 +93,9 @@ ROW_TABLES: dict[str, tuple[str, tuple[Column, ...]]] = {
         Column("coupled, TDHF\n(a.u.)", _field("coupled"), ".10g"),
         Column("uncoupled\n(a.u.)", _field("uncoupled"), ".10g"),
         Column("velocity form\n(a.u.)", _field("velocity_form"), ".10g"),
+        Column("broadening\n(hartree)", _field("broadening"), ".4g", optional=True),
+        Column("Im coupled\n(a.u.)", _field("coupled_imaginary_part"), ".10g", optional=True),
+        Column("Im uncoupled\n(a.u.)", _field("uncoupled_imaginary_part"), ".10g", optional=True),
     )),
     "shielding": ("Dipole shielding factor (dimensionless)", (
         Column("frequency\n(hartree)", _field("frequency"), ".6f"),
@@ -193,6 +197,7 @@ def orbital_table(state: GroundState) -> Table:
 def rows_table(title: str, rows: Sequence[Any], columns: Sequence[Column]) -> Table:
     """A table with one line per result row."""
     table = _new_table(title)
+    columns = [c for c in columns if not c.optional or any(c.value(row) not in (None, 0, 0.0) for row in rows)]
     for column in columns:
         _add_column(table, column.header)
     for row in rows:

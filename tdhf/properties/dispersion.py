@@ -1,0 +1,547 @@
+r"""Casimir–Polder dispersion coefficients C6, C8, C10 from TDHF polarizabilities at imaginary frequency.
+
+Convention
+----------
+:math:`E_{AB}(R) = -C_6/R^6 - C_8/R^8 - C_{10}/R^{10} - \dots` (hartree, R in bohr; C_{2n} in
+hartree bohr^{2n}), for two closed-shell (:sup:`1`\ S) atoms, from second-order perturbation theory
+in the multipole-expanded Coulomb interaction (no overlap, no retardation).  The polarizabilities
+are those of :mod:`tdhf.response.solver`,
+:math:`\alpha_l(i\omega) = 2\sum_n \Delta_n |\langle 0|Q_{l0}|n\rangle|^2 / (\Delta_n^2 + \omega^2)`
+with :math:`Q_{lm} = \sum_i r_i^l C_{lm}(\hat r_i)` (Racah-normalised, :math:`C_{l0} = P_l(\cos\theta)`)
+and :math:`\Delta_n = E_n - E_0`; hydrogen has :math:`\alpha_1(0) = 4.5`, :math:`\alpha_2(0) = 15`.
+
+.. math:: C_{2n} = \sum_{l_A + l_B = n - 1,\; l_A, l_B \ge 1}
+          \frac{(2l_A + 2l_B)!}{(2l_A)!\,(2l_B)!}\,
+          \frac{1}{2\pi}\int_0^\infty \alpha^A_{l_A}(i\omega)\,\alpha^B_{l_B}(i\omega)\,d\omega,
+
+that is :math:`C_6 = \frac{3}{\pi}\int\alpha_1^A\alpha_1^B`,
+:math:`C_8 = \frac{15}{2\pi}\int(\alpha_1^A\alpha_2^B + \alpha_2^A\alpha_1^B)` and
+:math:`C_{10} = \frac{14}{\pi}\int(\alpha_1^A\alpha_3^B + \alpha_3^A\alpha_1^B)
++ \frac{35}{\pi}\int\alpha_2^A\alpha_2^B`.
+
+Derivation
+~~~~~~~~~~
+With A at the origin and B at :math:`R\hat z`, the interaction of the two (neutral) charge
+distributions is, for non-overlapping densities (e.g. Dalgarno, Adv. Chem. Phys. 12, 143 (1967);
+from memory),
+
+.. math:: V = \sum_{l_A, l_B \ge 1} \sum_m \frac{T_{l_A l_B m}}{R^{l_A + l_B + 1}}\,
+          Q^A_{l_A m} Q^B_{l_B, -m},\qquad
+          T_{l_A l_B m}^2 = \frac{[(l_A + l_B)!]^2}{(l_A+m)!\,(l_A-m)!\,(l_B+m)!\,(l_B-m)!}
+
+(:math:`T_{11m} = -2, 1, 1` for m = 0, ±1: the dipole–dipole
+:math:`(x_A x_B + y_A y_B - 2 z_A z_B)/R^3`).  The second-order energy is
+:math:`E_2 = -\sum_{a,b} |\langle 0_A 0_B|V|a b\rangle|^2/(\Delta_a + \Delta_b)`.  A :sup:`1`\ S state
+is connected by :math:`Q_{lm}` only to states of angular momentum l and projection m, so different
+(l_A, l_B, m) do not interfere, the term with l_A + l_B = n - 1 falls off as :math:`R^{-2n}`, and
+(Wigner–Eckart) the sums over excited states do not depend on m.  Three steps remain:
+
+1. Casimir–Polder: :math:`\frac{1}{x + y} = \frac{2}{\pi}\int_0^\infty
+   \frac{x\,y\,d\omega}{(x^2+\omega^2)(y^2+\omega^2)}` for x, y > 0 (H. B. G. Casimir and D. Polder,
+   Phys. Rev. 73, 360 (1948)), which factorises the double sum:
+   :math:`\sum_{ab}\frac{|q_a|^2 |q_b|^2}{\Delta_a+\Delta_b} = \frac{2}{\pi}\int
+   \frac{\alpha^A}{2}\frac{\alpha^B}{2}\,d\omega = \frac{1}{2\pi}\int\alpha^A\alpha^B\,d\omega`;
+2. the angular sum: :math:`T^2 = \binom{N}{l_A + m}\binom{N}{l_A - m}` with N = l_A + l_B, and
+   Vandermonde's identity gives :math:`\sum_m T^2 = \binom{2N}{2l_A} = (2l_A+2l_B)!/((2l_A)!(2l_B)!)`
+   (6 for C6; 15 for each cross term of C8; 28 and 70 for C10);
+3. C_{2n} collects the terms with :math:`2(l_A + l_B + 1) = 2n`.
+
+The exact one-electron limit checks all of it: hydrogen (no electron–electron terms in TDHF)
+gives C6 = 6.499026705, C8 = 124.3990835, C10 = 3285.828414 (:mod:`tests.test_dispersion`).
+
+Quadrature
+~~~~~~~~~~
+Gauss–Legendre in t on the map :math:`\omega = \omega_0 (1 + t)/(1 - t)`, t in (-1, 1), with the
+fixed scale :data:`FREQUENCY_SCALE` :math:`\omega_0 = 0.5` hartree.  Since
+:math:`\alpha_l(i\omega) \sim S_l(0)/\omega^2` at large ω the integrands are smooth in t up to
+t = 1.  Each result uses two rules: the *base* rule of n = ``quadrature_points`` nodes and the
+*companion* rule of n + n//2 nodes.  The reported coefficients are those of the companion (more
+accurate) rule and the reported error is :math:`\max(|Q_n - Q_{n + n/2}|,\ `
+:data:`ERROR_FLOOR` :math:`\cdot |Q_{n+n/2}|)`: an estimate of the base rule's error, so an
+overestimate for the reported value.  The floor covers the irregular, non-monotone convergence
+seen near 1e-10 for atoms with deep d and p shells (core excitations put poles of the integrand
+close to t = 1).  The error is that of the frequency quadrature only; the radial grid's error
+is separate (compare a run with ``GridSettings.tight()``).  A single ω0 for all pairs lets each
+atom's :math:`\alpha_l(i\omega)` be solved once, on the union of both rules' nodes, and reused for
+every pair; pairs then cost a few dot products.
+
+Non-convergence policy
+~~~~~~~~~~~~~~~~~~~~~~
+A system whose ground state did not converge, whose response solver raises (e.g.
+:class:`~tdhf.errors.ConvergenceError`), leaves a Krylov residual above
+:data:`RESPONSE_RESIDUAL_LIMIT` or gives a non-finite polarizability does not stop the other
+pairs: its polarizabilities of that multipole become NaN, the coefficients that need them NaN,
+the pair ``converged=False``, and a note naming the system goes to ``warnings`` (and to
+:func:`warnings.warn` as a RuntimeWarning).  A pair whose error estimate exceeds
+:data:`RELATIVE_ERROR_GOAL` of a coefficient is also ``converged=False``, with a note.
+
+>>> from tdhf.ground_state import solve_ground_state
+>>> from tdhf.system import System
+>>> hydrogen = solve_ground_state(System.from_input("H"))
+>>> result = compute_dispersion(hydrogen, (hydrogen,))
+>>> row = result.coefficients[0]
+>>> print(row.pair, f"{row.C6:.9f} {row.C8:.7f} {row.C10:.6f}", row.converged)
+('H', 'H') 6.499026705 124.3990835 3285.828414 True
+"""
+
+from __future__ import annotations
+
+import csv
+import math
+import os
+import tempfile
+import warnings
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Callable, Sequence
+
+import numpy as np
+from threadpoolctl import threadpool_limits
+
+from tdhf.errors import ConvergenceError, InputError, TdhfError
+from tdhf.ground_state import GroundState
+from tdhf.response.solver import ResponseSolver
+
+__all__ = [
+    "DispersionCoefficients",
+    "DispersionResults",
+    "ImaginaryFrequencyTable",
+    "compute_dispersion",
+    "dispersion_table",
+    "write_polarizability_csv",
+    "imaginary_frequency_rule",
+    "companion_points",
+    "imaginary_polarizabilities",
+    "casimir_polder_coefficients",
+    "MULTIPOLES",
+    "FREQUENCY_SCALE",
+    "DEFAULT_QUADRATURE_POINTS",
+    "QUADRATURE_RANGE",
+    "RELATIVE_ERROR_GOAL",
+    "ERROR_FLOOR",
+    "RESPONSE_RESIDUAL_LIMIT",
+    "CSV_COLUMNS",
+]
+
+#: Multipole orders whose polarizabilities enter C6, C8, C10: dipole, quadrupole, octupole.
+MULTIPOLES = (1, 2, 3)
+#: omega_0 of the map omega = omega_0 (1 + t)/(1 - t), hartree: half the nodes lie below it.  The
+#: integrands live at valence excitation energies, 0.2-1 hartree for He..Cd; 0.25 and 1.0 converge
+#: about as fast (He, Ca, Xe, Cd studied).
+FREQUENCY_SCALE = 0.5
+#: Base rule size by default, and the accepted range (the deck's dispersion.quadrature_points).
+DEFAULT_QUADRATURE_POINTS = 24
+QUADRATURE_RANGE = (8, 96)
+#: Relative error estimate above which a coefficient is flagged (6 significant digits).
+RELATIVE_ERROR_GOAL = 1e-6
+#: Smallest relative error reported: below ~1e-9 the convergence in n is irregular (e.g. He-Cd C6
+#: errors of 1.1e-9 at n = 24 and 8e-10 at n = 36 against n = 96), so a difference of two rules
+#: alone could understate the error there.
+ERROR_FLOOR = 1e-9
+#: Largest accepted relative residual of a coupled response solve (the solver aims at 1e-12;
+#: at imaginary frequency the equations are well conditioned, so 1e-9 bounds alpha's error far
+#: below RELATIVE_ERROR_GOAL).
+RESPONSE_RESIDUAL_LIMIT = 1e-9
+#: Header of :func:`write_polarizability_csv`.
+CSV_COLUMNS = ("system", "frequency_hartree", "weight", "alpha1", "alpha2", "alpha3")
+
+#: (2 l_A + 2 l_B)! / ((2 l_A)! (2 l_B)!) / (2 pi) for each (l_A, l_B) of C6, C8, C10.
+_PREFACTORS = {
+    (l_a, l_b): math.comb(2 * (l_a + l_b), 2 * l_a) / (2.0 * math.pi)
+    for l_a in MULTIPOLES for l_b in MULTIPOLES if l_a + l_b <= 4
+}
+_COEFFICIENT_NAMES = ("C6", "C8", "C10")
+#: Errors raised by the numerics of a failing response (anything else is a bug and propagates).
+_RESPONSE_FAILURES = (TdhfError, np.linalg.LinAlgError, ArithmeticError)
+
+Progress = Callable[[int, int], None]
+
+
+@dataclass(frozen=True)
+class DispersionCoefficients:
+    """C6, C8, C10 of one pair of systems (atomic units: hartree bohr^6, ^8, ^10).
+
+    Attributes
+    ----------
+    pair : tuple of str
+        System names (A, B), e.g. ("Ne", "He"); the coefficients are symmetric in A and B.
+    C6, C8, C10 : float
+        Values of the companion quadrature rule (n + n//2 nodes); NaN if a response failed.
+    C6_error, C8_error, C10_error : float
+        Quadrature error estimates (module docstring), same units; NaN with the value.
+    converged : bool
+        All three values finite and each error within RELATIVE_ERROR_GOAL of its value.
+    """
+
+    pair: tuple[str, str]
+    C6: float
+    C8: float
+    C10: float
+    C6_error: float
+    C8_error: float
+    C10_error: float
+    converged: bool
+
+
+@dataclass(frozen=True)
+class ImaginaryFrequencyTable:
+    """TDHF polarizabilities alpha_L(i omega) of one system at the nodes of the reported rule.
+
+    ``sum(w * a * b)`` over the rows of two tables times the prefactors of the module docstring
+    reproduces the reported coefficients exactly.
+
+    Attributes
+    ----------
+    system : str
+    frequencies : tuple of float, shape (m,)
+        Quadrature nodes omega_k in hartree, ascending (m = n + n//2).
+    weights : tuple of float, shape (m,)
+        Weights w_k in hartree: :math:`\\int_0^\\infty f\\,d\\omega \\approx \\sum_k w_k f(\\omega_k)`.
+    dipole, quadrupole, octupole : tuple of float, shape (m,)
+        :math:`\\alpha_1, \\alpha_2, \\alpha_3` at :math:`i\\omega_k` (a.u.); NaN if that response failed.
+    """
+
+    system: str
+    frequencies: tuple[float, ...]
+    weights: tuple[float, ...]
+    dipole: tuple[float, ...]
+    quadrupole: tuple[float, ...]
+    octupole: tuple[float, ...]
+
+
+@dataclass(frozen=True)
+class DispersionResults:
+    """Coefficient rows, notes, and the polarizability table of every system involved.
+
+    Attributes
+    ----------
+    coefficients : tuple of DispersionCoefficients
+        One row per pair, in the order documented by the function that made it.
+    warnings : tuple of str
+        One line per failed response, skipped system or coefficient above the accuracy goal.
+    polarizability_tables : tuple of ImaginaryFrequencyTable
+        One per distinct system, in order of first appearance.
+    """
+
+    coefficients: tuple[DispersionCoefficients, ...]
+    warnings: tuple[str, ...]
+    polarizability_tables: tuple[ImaginaryFrequencyTable, ...]
+
+
+# --------------------------------------------------------------------------------------------
+# Functional core
+
+
+def imaginary_frequency_rule(points: int, scale: float = FREQUENCY_SCALE) -> tuple[np.ndarray, np.ndarray]:
+    r"""Gauss–Legendre rule for :math:`\int_0^\infty f(\omega)\,d\omega` on :math:`\omega = s(1+t)/(1-t)`.
+
+    Exact for :math:`f = \omega^k/(\omega + s)^{k+2}` with k <= 2 points - 1 (a polynomial of degree k
+    in t); the integral is :math:`1/(s(k+1))`.
+
+    Parameters
+    ----------
+    points : int
+        Number of nodes n >= 1.
+    scale : float
+        s in hartree (> 0).
+
+    Returns
+    -------
+    nodes, weights : ndarray, shape (n,)
+        Ascending frequencies (hartree) and weights (hartree), weights including :math:`d\omega/dt`.
+
+    >>> nodes, weights = imaginary_frequency_rule(4, 1.0)
+    >>> print(f"{weights @ (1.0 / (1.0 + nodes) ** 2):.15f}")
+    1.000000000000000
+    """
+    if points < 1 or scale <= 0.0:
+        raise InputError(f"imaginary_frequency_rule: need points >= 1 and scale > 0, got {points}, {scale}")
+    t, w = np.polynomial.legendre.leggauss(points)
+    nodes = scale * (1.0 + t) / (1.0 - t)
+    weights = w * 2.0 * scale / (1.0 - t) ** 2
+    return nodes, weights
+
+
+def companion_points(points: int) -> int:
+    """Size of the companion rule that gives the reported value and, with the base, the error."""
+    return points + points // 2
+
+
+def casimir_polder_coefficients(
+    weights: np.ndarray, alpha_a: np.ndarray, alpha_b: np.ndarray
+) -> tuple[float, float, float]:
+    r"""C6, C8, C10 (hartree bohr^{2n}) from polarizabilities at the nodes of one rule.
+
+    Parameters
+    ----------
+    weights : ndarray, shape (m,)
+        Quadrature weights in hartree.
+    alpha_a, alpha_b : ndarray, shape (3, m)
+        :math:`\alpha_1, \alpha_2, \alpha_3` of A and B at :math:`i\omega_k` (a.u.).
+
+    Exactly symmetric: swapping A and B gives bit-identical values.
+
+    >>> nodes, weights = imaginary_frequency_rule(48)
+    >>> one_pole = np.array([1.0 / (1.0 + nodes**2)] * 3)   # alpha = 1, excitation energy 1
+    >>> print(f"{casimir_polder_coefficients(weights, one_pole, one_pole)[0]:.12f}")  # London: 3/4
+    0.750000000000
+    """
+    def integral(l_a: int, l_b: int) -> float:
+        # a*b + b*a in one expression keeps the sum symmetric in A and B to the last bit.
+        if l_a == l_b:
+            integrand = alpha_a[l_a - 1] * alpha_b[l_b - 1]
+        else:
+            integrand = alpha_a[l_a - 1] * alpha_b[l_b - 1] + alpha_a[l_b - 1] * alpha_b[l_a - 1]
+        return _PREFACTORS[l_a, l_b] * float(np.sum(weights * integrand))
+
+    return integral(1, 1), integral(1, 2), integral(1, 3) + integral(2, 2)
+
+
+def imaginary_polarizabilities(
+    ground_state: GroundState,
+    frequencies: np.ndarray,
+    multipoles: Sequence[int] = MULTIPOLES,
+    progress: Callable[[int], None] | None = None,
+) -> np.ndarray:
+    r"""Coupled TDHF :math:`\alpha_L(i\omega)` (a.u.) at real ``frequencies`` omega >= 0 (hartree).
+
+    One :class:`ResponseSolver` per multipole, reused for every frequency; one BLAS thread.
+
+    Parameters
+    ----------
+    progress : callable, optional
+        Called with 1 after each frequency solve.
+
+    Returns
+    -------
+    ndarray, shape (len(multipoles), len(frequencies))
+
+    Raises
+    ------
+    ConvergenceError
+        If a coupled solve ends above RESPONSE_RESIDUAL_LIMIT or alpha is not finite.
+    """
+    frequencies = np.asarray(frequencies, dtype=float)
+    out = np.empty((len(multipoles), frequencies.size))
+    name = ground_state.system.name
+    with threadpool_limits(limits=1, user_api="blas"):
+        # One BLAS thread: the matrices are ~150 wide, where threads cost more than they give.
+        for i, multipole in enumerate(multipoles):
+            solver = ResponseSolver(ground_state.grid, ground_state.system.Z, ground_state.shells,
+                                    ground_state.orbital_energies, multipole)
+            for k, nu in enumerate(frequencies):
+                first_order = solver.solve(1j * nu)
+                alpha = solver.polarizability(first_order).real
+                if not first_order.residual <= RESPONSE_RESIDUAL_LIMIT or not math.isfinite(alpha):
+                    raise ConvergenceError(
+                        f"response of {name}: L={multipole} at i*{nu:.6g} hartree gave alpha = {alpha!r}"
+                        f" with Krylov residual {first_order.residual:.1e} after"
+                        f" {first_order.krylov_iterations} steps (limit {RESPONSE_RESIDUAL_LIMIT:.0e})"
+                    )
+                out[i, k] = alpha
+                if progress is not None:
+                    progress(1)
+    return out
+
+
+# --------------------------------------------------------------------------------------------
+# Object shell: per-system caches and the pair loop
+
+
+@dataclass(frozen=True)
+class _Rules:
+    """Base and companion rules and the union of their nodes (where alpha is solved)."""
+
+    base_points: int
+    nodes: np.ndarray
+    base: tuple[np.ndarray, np.ndarray]  # (indices into nodes, weights)
+    companion: tuple[np.ndarray, np.ndarray]
+
+    @classmethod
+    def make(cls, points: int) -> "_Rules":
+        base_nodes, base_weights = imaginary_frequency_rule(points)
+        companion_nodes, companion_weights = imaginary_frequency_rule(companion_points(points))
+        # Rules of odd size share omega = omega_0 (t = 0 exactly); solve it once.
+        nodes = np.unique(np.concatenate([base_nodes, companion_nodes]))
+        return cls(points, nodes, (np.searchsorted(nodes, base_nodes), base_weights),
+                   (np.searchsorted(nodes, companion_nodes), companion_weights))
+
+
+@dataclass(frozen=True)
+class _SystemResponse:
+    name: str
+    alpha: np.ndarray  # shape (3, union nodes); NaN rows for failed multipoles
+
+
+def _check_points(points: int) -> None:
+    low, high = QUADRATURE_RANGE
+    if isinstance(points, bool) or not isinstance(points, (int, np.integer)) or not low <= points <= high:
+        raise InputError(f"dispersion.quadrature_points: {points!r} is not an integer in {low}..{high}")
+
+
+def _solve_system(
+    state: GroundState, rules: _Rules, notes: list[str], advance: Callable[[int], None]
+) -> _SystemResponse:
+    """alpha_L on the union of nodes; a failing multipole becomes a NaN row and a note."""
+    name = state.system.name
+    alpha = np.full((len(MULTIPOLES), rules.nodes.size), np.nan)
+    if not state.converged:
+        notes.append(f"dispersion: {name}: skipped; its ground state did not converge")
+        advance(alpha.size)
+        return _SystemResponse(name, alpha)
+    for i, multipole in enumerate(MULTIPOLES):
+        done = [0]
+
+        def step(count: int) -> None:
+            done[0] += count
+            advance(count)
+
+        try:
+            alpha[i] = imaginary_polarizabilities(state, rules.nodes, (multipole,), step)[0]
+        except _RESPONSE_FAILURES as err:
+            notes.append(f"dispersion: {name}: the L={multipole} response failed"
+                         f" ({type(err).__name__}: {err}); its pairs get NaN coefficients")
+            advance(rules.nodes.size - done[0])
+    return _SystemResponse(name, alpha)
+
+
+def _pair(a: _SystemResponse, b: _SystemResponse, rules: _Rules, notes: list[str]) -> DispersionCoefficients:
+    (base_index, base_weights), (report_index, report_weights) = rules.base, rules.companion
+    base = casimir_polder_coefficients(base_weights, a.alpha[:, base_index], b.alpha[:, base_index])
+    values = casimir_polder_coefficients(report_weights, a.alpha[:, report_index], b.alpha[:, report_index])
+    errors = tuple(max(abs(q - v), ERROR_FLOOR * abs(v)) for q, v in zip(base, values))
+    finite = all(math.isfinite(v) for v in values)
+    accurate = True
+    for name, value, error in zip(_COEFFICIENT_NAMES, values, errors):
+        if math.isfinite(value) and not error <= RELATIVE_ERROR_GOAL * abs(value):
+            accurate = False
+            notes.append(
+                f"dispersion: {a.name}-{b.name}: quadrature error estimate of {name} is"
+                f" {error / abs(value):.1e} relative (goal {RELATIVE_ERROR_GOAL:.0e});"
+                f" increase dispersion.quadrature_points (now {rules.base_points})"
+            )
+    return DispersionCoefficients((a.name, b.name), *values, *errors, converged=finite and accurate)
+
+
+def _table(response: _SystemResponse, rules: _Rules) -> ImaginaryFrequencyTable:
+    index, weights = rules.companion
+    alpha = response.alpha[:, index]
+    return ImaginaryFrequencyTable(
+        system=response.name,
+        frequencies=tuple(float(x) for x in rules.nodes[index]),
+        weights=tuple(float(x) for x in weights),
+        dipole=tuple(float(x) for x in alpha[0]),
+        quadrupole=tuple(float(x) for x in alpha[1]),
+        octupole=tuple(float(x) for x in alpha[2]),
+    )
+
+
+def _run(
+    states: Sequence[GroundState],
+    pairs: Sequence[tuple[int, int]],
+    points: int,
+    progress: Progress | None,
+) -> DispersionResults:
+    """Solve each distinct state (by identity) once, then sum every pair of indices into ``states``."""
+    _check_points(points)
+    rules = _Rules.make(points)
+    distinct: dict[int, int] = {}  # id(state) -> position in `unique`
+    unique: list[GroundState] = []
+    for state in states:
+        if id(state) not in distinct:
+            distinct[id(state)] = len(unique)
+            unique.append(state)
+    total = len(unique) * len(MULTIPOLES) * rules.nodes.size
+    done = [0]
+
+    def advance(count: int) -> None:
+        done[0] += count
+        if progress is not None:
+            progress(done[0], total)
+
+    notes: list[str] = []
+    responses = [_solve_system(state, rules, notes, advance) for state in unique]
+    by_index = [responses[distinct[id(state)]] for state in states]
+    rows = [_pair(by_index[i], by_index[j], rules, notes) for i, j in pairs]
+    for note in notes:
+        warnings.warn(note, RuntimeWarning, stacklevel=3)
+    return DispersionResults(tuple(rows), tuple(notes), tuple(_table(r, rules) for r in responses))
+
+
+# --------------------------------------------------------------------------------------------
+# Public entry points
+
+
+def compute_dispersion(
+    ground_state: GroundState,
+    partners: tuple[GroundState, ...],
+    quadrature_points: int = DEFAULT_QUADRATURE_POINTS,
+    *,
+    progress: Progress | None = None,
+) -> DispersionResults:
+    """C6, C8, C10 of ``ground_state`` with each partner.
+
+    Parameters
+    ----------
+    ground_state : GroundState
+        The deck's atom (A of every pair).
+    partners : tuple of GroundState
+        B of each pair, in order; passing ``ground_state`` itself gives the like pair.
+    quadrature_points : int
+        Base rule size n in QUADRATURE_RANGE; the reported values use n + n//2 nodes.
+    progress : callable, optional
+        ``progress(done, total)`` in frequency solves, after each one.
+
+    Returns
+    -------
+    DispersionResults
+        ``coefficients[k]`` is the pair (atom, partners[k]); one table per distinct system,
+        the atom first.  Failures follow the module's non-convergence policy.
+
+    Raises
+    ------
+    InputError
+        If ``quadrature_points`` is not an integer in QUADRATURE_RANGE.
+    """
+    states = (ground_state, *partners)
+    return _run(states, [(0, k) for k in range(1, len(states))], quadrature_points, progress)
+
+
+def dispersion_table(
+    ground_states: Sequence[GroundState],
+    quadrature_points: int = DEFAULT_QUADRATURE_POINTS,
+    progress: Progress | None = None,
+) -> DispersionResults:
+    """C6, C8, C10 of every unordered pair of a series, like pairs included.
+
+    Rows (i, j) for i <= j in row-major order: (0, 0), (0, 1), ..., (1, 1), ...; n(n+1)/2 rows.
+    Each system's response is solved once.  Parameters, returns and errors as
+    :func:`compute_dispersion`.
+    """
+    n = len(ground_states)
+    pairs = [(i, j) for i in range(n) for j in range(i, n)]
+    return _run(tuple(ground_states), pairs, quadrature_points, progress)
+
+
+def write_polarizability_csv(path: str | Path, tables: Sequence[ImaginaryFrequencyTable]) -> None:
+    """Write the tables as CSV (columns CSV_COLUMNS, one row per system and node; a.u., hartree).
+
+    Floats are written with ``repr`` (they read back bit-identical; NaN as ``nan``).  The file is
+    written to a temporary file next to ``path`` and moved over it, so it is never left partial.
+    """
+    path = Path(path)
+    handle, temporary = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+    try:
+        with os.fdopen(handle, "w", encoding="utf-8", newline="") as stream:
+            writer = csv.writer(stream)
+            writer.writerow(CSV_COLUMNS)
+            for table in tables:
+                for row in zip(table.frequencies, table.weights, table.dipole, table.quadrupole, table.octupole):
+                    writer.writerow([table.system, *(repr(float(x)) for x in row)])
+        mask = os.umask(0)
+        os.umask(mask)
+        os.chmod(temporary, 0o666 & ~mask)  # mkstemp makes the file private (0600)
+        os.replace(temporary, path)
+    except BaseException:
+        Path(temporary).unlink(missing_ok=True)
+        raise
