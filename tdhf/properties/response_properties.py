@@ -188,7 +188,10 @@ def _one_multipole(state, L, frequencies, imaginary_frequencies, coupled, broade
     eigen = rpa_eigen_excitations(solver, coupled=coupled)
     excitations = lowest_excitations(solver, count=count, coupled=coupled, eigen=eigen)
     rows["excitations"].extend(excitations)
-    first = excitations[0].energy if excitations else math.inf
+    # Above the ionization threshold the spectrum is continuous: no real alpha either.
+    threshold = -float(solver.orbital_energies.max())
+    first = min(excitations[0].energy if excitations else math.inf, threshold)
+    first_label = f"first {name} excitation" if first < threshold else "ionization threshold (onset of the continuum)"
     first_uncoupled = min(
         float(values[virtual].min() - solver.orbital_energies[c.shell])
         for c in solver.channels
@@ -199,7 +202,7 @@ def _one_multipole(state, L, frequencies, imaginary_frequencies, coupled, broade
     for i, omega in enumerate(frequencies):
         if broadening == 0.0 and omega >= first * (1.0 - RESONANCE_MARGIN):
             rejected.append(
-                f"response.frequencies[{i}]: {omega:g} hartree is at or above the first {name} excitation"
+                f"response.frequencies[{i}]: {omega:g} hartree is at or above the {first_label}"
                 f" ({first:.6f} hartree); a real alpha exists only below it: use imaginary_frequencies"
                 " or a broadening"
             )
