@@ -15,6 +15,7 @@ Exit codes
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import contextlib
 import logging
 import sys
@@ -26,7 +27,7 @@ from typing import Any, Iterator, Sequence, TextIO
 from rich.console import Console
 
 from tdhf.deck import Deck, build_deck, load_deck
-from tdhf.driver import program_info, result_to_json, run_deck
+from tdhf.driver import certify, program_info, result_to_json, run_deck
 from tdhf.errors import ConvergenceError, InputError
 from tdhf.report.serialize import write_json
 from tdhf.report.terminal import print_report
@@ -49,6 +50,8 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action="version", version=f"tdhf {program_info().version}")
     common = argparse.ArgumentParser(add_help=False)
     common.add_argument("--json", metavar="OUT.json", type=Path, help="also write the results to this JSON file")
+    common.add_argument("--certify", action="store_true",
+                        help="recompute on a clearly finer grid and report how much every number changes")
     talk = common.add_mutually_exclusive_group()
     talk.add_argument("-v", "--verbose", action="store_true",
                       help="show options, progress and every SCF iteration on stderr")
@@ -196,6 +199,8 @@ def _execute(args: argparse.Namespace, stdout: TextIO, err_console: Console) -> 
     json_path = _check_output(args.json)
     with _progress(err_console, live=err_console.is_terminal and not (args.quiet or args.verbose)) as progress:
         result = run_deck(deck, progress=progress)
+        if args.certify:
+            result = dataclasses.replace(result, certification=certify(result, deck, progress=progress))
     if json_path is not None:
         write_json(json_path, result_to_json(result))
     if not args.quiet:

@@ -18,6 +18,7 @@ True -2.861680
 
 from __future__ import annotations
 
+import dataclasses
 import importlib.metadata
 import logging
 import warnings
@@ -123,6 +124,7 @@ class RunResult:
     excitations: tuple[Any, ...] = ()
     strength_distribution: tuple[Any, ...] = ()
     dispersion: tuple[Any, ...] = ()
+    certification: tuple["Certification", ...] = ()
     warnings: tuple[str, ...] = ()
     rejected: tuple[str, ...] = ()
     settings: RunSettings
@@ -150,6 +152,67 @@ class RunResult:
             for state in (self.ground_state, *self.partner_ground_states)
             if not state.converged
         )
+
+
+@dataclass(frozen=True)
+class Certification:
+    """One number recomputed on a clearly finer grid (``GridSettings.refined()``).
+
+    ``quantity`` is the number's key path in the JSON result, e.g. ``polarizabilities[0].coupled``.
+    """
+
+    quantity: str
+    value: float
+    refined: float
+    difference: float
+    relative_difference: float
+
+
+#: Relative change on the refined grid above which a certified number is reported as unconverged.
+CERTIFICATION_TOLERANCE = 1e-7
+#: Result lists compared in full, and the ground-state numbers compared.
+_CERTIFIED_LISTS = (*RESPONSE_FIELDS, "dispersion")
+_CERTIFIED_GROUND_STATE = ("total_energy", "virial_ratio")
+#: Bookkeeping fields that are not results of the physics (they may differ between grids).
+_NOT_CERTIFIED = {"frequency", "broadening", "r_max", "krylov_iterations", "multipole", "k", "cutoff",
+                  "continuum_threshold", "discrete_states", "eigen_energy", "eigen_oscillator_strength",
+                  "C6_error", "C8_error", "C10_error", "beyond_cutoff", "continuum_sum", "discrete_sum",
+                  "difference"}
+
+
+def certify(result: RunResult, deck: Deck, progress: Progress | None = None) -> tuple[Certification, ...]:
+    """Recompute the deck on ``deck.grid.refined()`` and compare every result number.
+
+    Returns one row per number; a warning names those whose relative change exceeds
+    ``CERTIFICATION_TOLERANCE`` (their digits beyond that are not trustworthy).
+    """
+    refined_deck = dataclasses.replace(deck, grid=deck.grid.refined())
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)  # the same notes were given for the main run
+        refined = run_deck(refined_deck, progress)
+    base, fine = to_jsonable(result), to_jsonable(refined)
+    pairs = [(f"ground_state.{key}", base["ground_state"][key], fine["ground_state"][key])
+             for key in _CERTIFIED_GROUND_STATE]
+    pairs += [(f"ground_state.orbitals[{i}].energy", a["energy"], b["energy"])
+              for i, (a, b) in enumerate(zip(base["ground_state"]["orbitals"], fine["ground_state"]["orbitals"]))]
+    for name in _CERTIFIED_LISTS:
+        for i, (a, b) in enumerate(zip(base[name], fine[name])):
+            pairs += [(f"{name}[{i}].{key}", value, b.get(key)) for key, value in a.items()
+                      if key not in _NOT_CERTIFIED and isinstance(value, float) and isinstance(b.get(key), float)
+                      and (value, b.get(key)) != (0.0, 0.0)]
+    rows = tuple(
+        Certification(path, value, other, other - value, abs(other - value) / max(abs(value), 1e-300))
+        for path, value, other in pairs
+    )
+    loose = [row for row in rows if row.relative_difference > CERTIFICATION_TOLERANCE]
+    if loose:
+        worst = max(loose, key=lambda row: row.relative_difference)
+        warnings.warn(
+            f"certification: {len(loose)} numbers change by more than {CERTIFICATION_TOLERANCE:g} relative on a"
+            f" refined grid (worst {worst.quantity}: {worst.relative_difference:.1e}); use [grid] preset = \"tight\"",
+            RuntimeWarning, stacklevel=2,
+        )
+    return rows
 
 
 def run_deck(deck: Deck, progress: Progress | None = None) -> RunResult:
@@ -273,4 +336,6 @@ def result_to_json(result: RunResult) -> dict[str, Any]:
             del data[name]
     if result.settings.dispersion is None:
         del data["dispersion"]
+    if not result.certification:
+        del data["certification"]
     return data

@@ -13,9 +13,9 @@ import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
-from threadpoolctl import threadpool_limits
 
 from tdhf.errors import ConfigurationError
+from tdhf.numerics.threads import single_blas_thread
 from tdhf.potentials import OccupiedShells
 from tdhf.radial.mesh import GridSettings, RadialGrid, build_grid
 from tdhf.scf import ScfSettings, solve_scf
@@ -96,6 +96,7 @@ class GroundState:
         return float(self.orbital_energies.max())
 
 
+@single_blas_thread
 def solve_ground_state(
     system: System,
     grid_settings: GridSettings = GridSettings(),
@@ -112,22 +113,20 @@ def solve_ground_state(
     """
     automatic = grid_settings.r_max is None
     r_max = grid_settings.r_max or (ANION_R_MAX if system.charge < 0 else DEFAULT_R_MAX)
-    with threadpool_limits(limits=1, user_api="blas"):
-        # One BLAS thread: the matrices are a few hundred wide, where threading costs time.
-        for _ in range(4):
-            grid = build_grid(grid_settings, system.Z, r_max)
-            solution = solve_scf(grid, system.Z, system.subshells, scf_settings)
-            homo = float(solution.orbital_energies.max())
-            if homo >= 0.0:
-                raise ConfigurationError(
-                    f"atom.charge: the outermost orbital of {system.name} is not bound in Hartree-Fock"
-                    f" (energy {homo:+.4f} hartree); choose a less negative charge"
-                )
-            decay = np.sqrt(-2.0 * homo) * r_max
-            if not automatic or decay >= BOX_DECAY or not solution.converged:
-                break
-            r_max = 1.15 * BOX_DECAY / np.sqrt(-2.0 * homo)
-            logger.info("box enlarged to %.1f bohr (kappa R was %.1f)", r_max, decay)
+    for _ in range(4):
+        grid = build_grid(grid_settings, system.Z, r_max)
+        solution = solve_scf(grid, system.Z, system.subshells, scf_settings)
+        homo = float(solution.orbital_energies.max())
+        if homo >= 0.0:
+            raise ConfigurationError(
+                f"atom.charge: the outermost orbital of {system.name} is not bound in Hartree-Fock"
+                f" (energy {homo:+.4f} hartree); choose a less negative charge"
+            )
+        decay = np.sqrt(-2.0 * homo) * r_max
+        if not automatic or decay >= BOX_DECAY or not solution.converged:
+            break
+        r_max = 1.15 * BOX_DECAY / np.sqrt(-2.0 * homo)
+        logger.info("box enlarged to %.1f bohr (kappa R was %.1f)", r_max, decay)
     notes = []
     if decay < BOX_DECAY:
         notes.append(

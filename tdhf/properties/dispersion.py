@@ -63,7 +63,8 @@ seen near 1e-10 for atoms with deep d and p shells (core excitations put poles o
 close to t = 1).  The error is that of the frequency quadrature only; the radial grid's error
 is separate (compare a run with ``GridSettings.tight()``).  A single ω0 for all pairs lets each
 atom's :math:`\alpha_l(i\omega)` be solved once, on the union of both rules' nodes, and reused for
-every pair; pairs then cost a few dot products.
+every pair; pairs then cost a few dot products.  ``workers`` > 1 spreads the (system,
+multipole) responses over processes, with bit-identical results.
 
 Non-convergence policy
 ~~~~~~~~~~~~~~~~~~~~~~
@@ -88,9 +89,11 @@ from __future__ import annotations
 
 import csv
 import math
+import multiprocessing
 import os
 import tempfile
 import warnings
+from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Callable, Sequence
@@ -373,36 +376,75 @@ class _SystemResponse:
     alpha: np.ndarray  # shape (3, union nodes); NaN rows for failed multipoles
 
 
-def _check_points(points: int) -> None:
+def _check_options(points: int, workers: int) -> None:
     low, high = QUADRATURE_RANGE
     if isinstance(points, bool) or not isinstance(points, (int, np.integer)) or not low <= points <= high:
         raise InputError(f"dispersion.quadrature_points: {points!r} is not an integer in {low}..{high}")
+    if isinstance(workers, bool) or not isinstance(workers, (int, np.integer)) or workers < 1:
+        raise InputError(f"dispersion: workers = {workers!r} is not an integer >= 1")
 
 
-def _solve_system(
-    state: GroundState, rules: _Rules, notes: list[str], advance: Callable[[int], None]
-) -> _SystemResponse:
-    """alpha_L on the union of nodes; a failing multipole becomes a NaN row and a note."""
-    name = state.system.name
-    alpha = np.full((len(MULTIPOLES), rules.nodes.size), np.nan)
-    if not state.converged:
-        notes.append(f"dispersion: {name}: skipped; its ground state did not converge")
-        advance(alpha.size)
-        return _SystemResponse(name, alpha)
-    for i, multipole in enumerate(MULTIPOLES):
-        done = [0]
+def _response_task(
+    state: GroundState, multipole: int, nodes: np.ndarray, progress: Callable[[int], None] | None = None
+) -> tuple[np.ndarray | None, str | None]:
+    """alpha_L at ``nodes``, or None and the failure ("ErrorType: message"); bugs propagate."""
+    try:
+        return imaginary_polarizabilities(state, nodes, (multipole,), progress)[0], None
+    except _RESPONSE_FAILURES as err:
+        return None, f"{type(err).__name__}: {err}"
 
-        def step(count: int) -> None:
-            done[0] += count
-            advance(count)
 
-        try:
-            alpha[i] = imaginary_polarizabilities(state, rules.nodes, (multipole,), step)[0]
-        except _RESPONSE_FAILURES as err:
-            notes.append(f"dispersion: {name}: the L={multipole} response failed"
-                         f" ({type(err).__name__}: {err}); its pairs get NaN coefficients")
-            advance(rules.nodes.size - done[0])
-    return _SystemResponse(name, alpha)
+def _solve_systems(
+    states: Sequence[GroundState], rules: _Rules, workers: int, advance: Callable[[int], None]
+) -> tuple[list[_SystemResponse], list[str]]:
+    """alpha_L on the union of nodes for each state; failures become NaN rows and notes.
+
+    With ``workers`` > 1 the (system, multipole) tasks run in that many spawned processes, the
+    costliest first; each task is the same computation as in the serial loop, so the numbers are
+    bit-identical (one BLAS thread everywhere).
+    """
+    alphas = [np.full((len(MULTIPOLES), rules.nodes.size), np.nan) for _ in states]
+    tasks = [(k, i) for k, state in enumerate(states) if state.converged for i in range(len(MULTIPOLES))]
+    advance(sum(alpha.size for state, alpha in zip(states, alphas) if not state.converged))
+    failures: dict[tuple[int, int], str] = {}
+
+    def store(task: tuple[int, int], result: tuple[np.ndarray | None, str | None]) -> None:
+        values, failure = result
+        if failure is None:
+            alphas[task[0]][task[1]] = values
+        else:
+            failures[task] = failure
+
+    if workers == 1 or len(tasks) < 2:
+        for task in tasks:
+            done = [0]
+
+            def step(count: int) -> None:
+                done[0] += count
+                advance(count)
+
+            store(task, _response_task(states[task[0]], MULTIPOLES[task[1]], rules.nodes, step))
+            advance(rules.nodes.size - done[0])  # the nodes a failed solve skipped
+    else:
+        # Cost of a solve ~ grid points^2 x subshells: start the heavy atoms first.
+        ordered = sorted(tasks, key=lambda t: -states[t[0]].grid_points ** 2 * len(states[t[0]].orbitals))
+        context = multiprocessing.get_context("spawn")  # no fork of a process with BLAS threads
+        with ProcessPoolExecutor(max_workers=min(workers, len(tasks)), mp_context=context) as pool:
+            futures = {pool.submit(_response_task, states[k], MULTIPOLES[i], rules.nodes): (k, i)
+                       for k, i in ordered}
+            for future in as_completed(futures):
+                store(futures[future], future.result())
+                advance(rules.nodes.size)
+    notes = []
+    for k, state in enumerate(states):
+        name = state.system.name
+        if not state.converged:
+            notes.append(f"dispersion: {name}: skipped; its ground state did not converge")
+        for i, multipole in enumerate(MULTIPOLES):
+            if (k, i) in failures:
+                notes.append(f"dispersion: {name}: the L={multipole} response failed ({failures[k, i]});"
+                             f" its pairs get NaN coefficients")
+    return [_SystemResponse(state.system.name, alpha) for state, alpha in zip(states, alphas)], notes
 
 
 def _pair(a: _SystemResponse, b: _SystemResponse, rules: _Rules, notes: list[str]) -> DispersionCoefficients:
@@ -441,27 +483,28 @@ def _run(
     pairs: Sequence[tuple[int, int]],
     points: int,
     progress: Progress | None,
+    workers: int,
 ) -> DispersionResults:
     """Solve each distinct state (by identity) once, then sum every pair of indices into ``states``."""
-    _check_points(points)
+    _check_options(points, workers)
     rules = _Rules.make(points)
-    distinct: dict[int, int] = {}  # id(state) -> position in `unique`
+    position: dict[int, int] = {}  # id(state) -> index into `unique`
     unique: list[GroundState] = []
     for state in states:
-        if id(state) not in distinct:
-            distinct[id(state)] = len(unique)
+        if id(state) not in position:
+            position[id(state)] = len(unique)
             unique.append(state)
     total = len(unique) * len(MULTIPOLES) * rules.nodes.size
     done = [0]
 
     def advance(count: int) -> None:
-        done[0] += count
-        if progress is not None:
-            progress(done[0], total)
+        if count:
+            done[0] += count
+            if progress is not None:
+                progress(done[0], total)
 
-    notes: list[str] = []
-    responses = [_solve_system(state, rules, notes, advance) for state in unique]
-    by_index = [responses[distinct[id(state)]] for state in states]
+    responses, notes = _solve_systems(unique, rules, workers, advance)
+    by_index = [responses[position[id(state)]] for state in states]
     rows = [_pair(by_index[i], by_index[j], rules, notes) for i, j in pairs]
     for note in notes:
         warnings.warn(note, RuntimeWarning, stacklevel=3)
@@ -478,6 +521,7 @@ def compute_dispersion(
     quadrature_points: int = DEFAULT_QUADRATURE_POINTS,
     *,
     progress: Progress | None = None,
+    workers: int = 1,
 ) -> DispersionResults:
     """C6, C8, C10 of ``ground_state`` with each partner.
 
@@ -490,7 +534,10 @@ def compute_dispersion(
     quadrature_points : int
         Base rule size n in QUADRATURE_RANGE; the reported values use n + n//2 nodes.
     progress : callable, optional
-        ``progress(done, total)`` in frequency solves, after each one.
+        ``progress(done, total)`` counted in frequency solves: after each solve (serial) or
+        each finished (system, multipole) block (``workers`` > 1).
+    workers : int
+        Processes for the responses; 1 (default) solves in this process.  Same numbers either way.
 
     Returns
     -------
@@ -501,16 +548,18 @@ def compute_dispersion(
     Raises
     ------
     InputError
-        If ``quadrature_points`` is not an integer in QUADRATURE_RANGE.
+        If ``quadrature_points`` is not an integer in QUADRATURE_RANGE or ``workers`` < 1.
     """
     states = (ground_state, *partners)
-    return _run(states, [(0, k) for k in range(1, len(states))], quadrature_points, progress)
+    return _run(states, [(0, k) for k in range(1, len(states))], quadrature_points, progress, workers)
 
 
 def dispersion_table(
     ground_states: Sequence[GroundState],
     quadrature_points: int = DEFAULT_QUADRATURE_POINTS,
     progress: Progress | None = None,
+    *,
+    workers: int = 1,
 ) -> DispersionResults:
     """C6, C8, C10 of every unordered pair of a series, like pairs included.
 
@@ -520,7 +569,7 @@ def dispersion_table(
     """
     n = len(ground_states)
     pairs = [(i, j) for i in range(n) for j in range(i, n)]
-    return _run(tuple(ground_states), pairs, quadrature_points, progress)
+    return _run(tuple(ground_states), pairs, quadrature_points, progress, workers)
 
 
 def write_polarizability_csv(path: str | Path, tables: Sequence[ImaginaryFrequencyTable]) -> None:

@@ -29,9 +29,9 @@ from dataclasses import dataclass, replace
 from typing import Sequence
 
 import numpy as np
-from threadpoolctl import threadpool_limits
 
 from tdhf.ground_state import GroundState, solve_ground_state
+from tdhf.numerics.threads import single_blas_thread
 from tdhf.properties.spectrum import (
     Excitation,
     StrengthDistribution,
@@ -134,6 +134,7 @@ class ResponseResults:
     normalization: str = NORMALIZATION
 
 
+@single_blas_thread
 def compute_response(
     ground_state: GroundState,
     multipoles: Sequence[int] = (1,),
@@ -152,10 +153,9 @@ def compute_response(
     rows: dict[str, list] = {key: [] for key in ("alpha", "beta", "gamma", "sums", "excitations", "distribution")}
     notes: list[str] = []
     rejected: list[str] = []
-    with threadpool_limits(limits=1, user_api="blas"):
-        for L in multipoles:
-            _one_multipole(ground_state, L, frequencies, imaginary_frequencies, coupled, broadening,
-                           excitation_count, rows, notes, rejected)
+    for L in multipoles:
+        _one_multipole(ground_state, L, frequencies, imaginary_frequencies, coupled, broadening,
+                       excitation_count, rows, notes, rejected)
     return ResponseResults(
         polarizabilities=tuple(rows["alpha"]),
         shielding=tuple(rows["beta"]),

@@ -25,6 +25,7 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.linalg
 
+from tdhf.numerics.threads import single_blas_thread
 from tdhf.response.solver import ResponseSolver
 
 __all__ = [
@@ -78,6 +79,7 @@ def _particle_hole_basis(solver: ResponseSolver, cutoff: float):
 COUPLING_BATCH = 64
 
 
+@single_blas_thread
 def rpa_eigen_excitations(solver: ResponseSolver, cutoff: float | None = None, coupled: bool = True):
     """Route 1: excitation energies and oscillator strengths from the truncated RPA eigenproblem.
 
@@ -85,6 +87,11 @@ def rpa_eigen_excitations(solver: ResponseSolver, cutoff: float | None = None, c
     -------
     energies, strengths : ndarray
         Ascending energies (hartree) with their f; ``sum(strengths)`` -> S(0) as cutoff -> inf.
+
+    Notes
+    -----
+    Only the sum of f is reliable for cutoffs far above the default: squaring particle-hole
+    energies of ~1e7 hartree (the innermost grid elements) loses the low lines to round-off.
     """
     cutoff = EIGEN_CUTOFF if cutoff is None else cutoff
     blocks = _particle_hole_basis(solver, cutoff)

@@ -131,6 +131,12 @@ ROW_TABLES: dict[str, tuple[str, tuple[Column, ...]]] = {
         Column("above cutoff\n(sum f)", _field("beyond_cutoff"), ".8g"),
         Column("S(0)\n(sum f)", _field("total"), ".10g"),
     )),
+    "certification": ("Grid certification: each number again on a finer grid", (
+        Column("quantity", _field("quantity")),
+        Column("value", _field("value"), ".12g"),
+        Column("finer grid", _field("refined"), ".12g"),
+        Column("relative change", _field("relative_difference"), ".1e"),
+    )),
     "dispersion": ("Dispersion coefficients", (
         Column("pair", _field("pair")),
         Column("C6\n(hartree bohr^6)", _field("C6"), ".8g"),

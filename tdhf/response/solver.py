@@ -37,6 +37,7 @@ from scipy.sparse.linalg import LinearOperator, gmres
 
 from tdhf.angular import multipole_weight, response_exchange_factors
 from tdhf.errors import InputError
+from tdhf.numerics.threads import single_blas_thread
 from tdhf.potentials import OccupiedShells, direct_potential, exchange_operator, one_electron_operator
 from tdhf.radial.mesh import RadialGrid
 from tdhf.radial.poisson import coulomb_kernels
@@ -103,6 +104,7 @@ class ResponseSolver:
         L >= 1.
     """
 
+    @single_blas_thread
     def __init__(
         self,
         grid: RadialGrid,
@@ -228,6 +230,7 @@ class ResponseSolver:
         return out_plus, out_minus
 
     # ----------------------------------------------------------------- solve
+    @single_blas_thread
     def solve(
         self,
         frequency: complex = 0.0,

@@ -1,0 +1,184 @@
+"""Tests of the discrete RPA spectrum (tdhf.properties.spectrum): energies and oscillator strengths.
+
+Evidence, in the order of STYLE.md:
+
+1. exact invariants: hydrogen 2p (analytic energy and f); the TRK sum of the route-1 strengths;
+   the uncoupled route reducing to Fock eigenvalue differences;
+2. cross-route agreement: route 1 (truncated RPA eigenproblem) against route 2 (poles of the full
+   response), and the spectral sums sum f/w^(2k) against the Cauchy moments of the solver;
+   the residue of alpha(w) at the first pole;
+5. self-regression values of this code, labelled as such.
+
+Oscillator strengths are those of the M = 0 dipole component, f = 2 w |<n|sum_i r_i C_10|0>|^2
+(dimensionless; the TRK sum is N).  Energies in hartree.
+"""
+
+from __future__ import annotations
+
+from fractions import Fraction
+
+import numpy as np
+import pytest
+
+from tdhf.ground_state import GroundState, solve_ground_state
+from tdhf.properties.spectrum import lowest_excitations, refine_pole, rpa_eigen_excitations
+from tdhf.radial.mesh import GridSettings
+from tdhf.response.solver import ResponseSolver
+from tdhf.scf import ScfSettings
+from tdhf.system import System
+
+#: Smallest oscillator strength treated as a visible line (dark pseudo-states of other channels
+#: have f ~ 1e-30 and are skipped, as lowest_excitations does).
+VISIBLE = 1e-10
+
+
+def make_solver(state: GroundState, multipole: int = 1) -> ResponseSolver:
+    return ResponseSolver(state.grid, state.system.Z, state.shells, state.orbital_energies, multipole)
+
+
+def visible_lines(solver: ResponseSolver, cutoff: float, coupled: bool = True) -> tuple[np.ndarray, np.ndarray]:
+    energies, strengths = rpa_eigen_excitations(solver, cutoff=cutoff, coupled=coupled)
+    keep = (strengths > VISIBLE) & (energies > 0.0)
+    return energies[keep], strengths[keep]
+
+
+@pytest.fixture(scope="module")
+def hydrogen() -> GroundState:
+    return solve_ground_state(System.from_input("H"), GridSettings(), ScfSettings())
+
+
+@pytest.fixture(scope="module")
+def helium_lines(helium):
+    """Route-1 lines of He at cutoff 1e3 hartree (solver, energies, strengths)."""
+    solver = make_solver(helium)
+    return (solver, *visible_lines(solver, 1e3))
+
+
+@pytest.fixture(scope="module")
+def neon_lines(neon):
+    solver = make_solver(neon)
+    return (solver, *visible_lines(solver, 1e3))
+
+
+# --------------------------------------------------------------------------- hydrogen
+def test_hydrogen_lyman_alpha(hydrogen):
+    r"""H 1s -> 2p: w = 3/8 and f = 2^13 / 3^9 = 0.41619672 exactly.
+
+    <1s|z|2p0> = <Y00|cos|Y10> \int R10 R21 r^3 dr with R10 = 2e^-r, R21 = r e^(-r/2)/(2 sqrt 6):
+    the radial integral is (1/sqrt 6) 4!/(3/2)^5 = 768/(243 sqrt 6); times 1/sqrt 3 this is
+    2^8/(3^5 sqrt 2), so |<z>|^2 = 2^15/3^10 and f = 2 (3/8) 2^15/3^10 = 2^13/3^9.
+    Both routes; the box (40 bohr) leaves 2p exact to ~1e-13.
+    """
+    exact_f = float(Fraction(2**13, 3**9))
+    assert exact_f == pytest.approx(0.41619672, abs=5e-9)
+    solver = make_solver(hydrogen)
+    energies, strengths = visible_lines(solver, 1e3)
+    assert energies[0] == pytest.approx(0.375, abs=1e-10)
+    assert strengths[0] == pytest.approx(exact_f, rel=1e-8)
+    energy, strength = refine_pole(solver, float(energies[0]))
+    assert energy == pytest.approx(0.375, abs=1e-10)
+    assert strength == pytest.approx(exact_f, rel=1e-6)
+
+
+# --------------------------------------------------------------------------- route agreement
+#: Route 1 at cutoff 1e3 sits within ~1e-11 of the complete-space poles for He and Ne (spectrum
+#: module docstring; observed <= 6e-12 in energy and <= 1e-8 relative in f).
+ROUTE_ENERGY_ATOL = 1e-8
+ROUTE_STRENGTH_RTOL = 1e-6
+
+
+@pytest.mark.parametrize("lines", ["helium_lines", "neon_lines"])
+@pytest.mark.parametrize("index", [0, 1, 2])
+def test_route_one_and_route_two_agree(request, lines, index):
+    """The lowest three 1P lines: RPA eigenproblem (cutoff 1e3) against poles of alpha(w)."""
+    solver, energies, strengths = request.getfixturevalue(lines)
+    below = 0.5 * (energies[index - 1] + energies[index]) if index else 0.5 * energies[0]
+    above = 0.5 * (energies[index] + energies[index + 1])
+    energy, strength = refine_pole(solver, float(energies[index]), bounds=(below, above))
+    assert energy == pytest.approx(energies[index], abs=ROUTE_ENERGY_ATOL)
+    assert strength == pytest.approx(strengths[index], rel=ROUTE_STRENGTH_RTOL)
+
+
+def test_lowest_excitations_api(helium_lines):
+    """lowest_excitations returns refined, bound lines in ascending order matching route 2."""
+    solver, energies, strengths = helium_lines
+    found = lowest_excitations(solver, count=3)
+    assert len(found) == 3
+    assert all(line.refined and line.bound for line in found)
+    assert [line.energy for line in found] == pytest.approx(list(energies[:3]), abs=ROUTE_ENERGY_ATOL)
+    assert [line.oscillator_strength for line in found] == pytest.approx(list(strengths[:3]), rel=ROUTE_STRENGTH_RTOL)
+
+
+#: SELF-REGRESSION value of this code (default settings): the lowest He 1P RPA excitation.  Not a
+#: published number (for orientation only: the experimental 1s2p 1P energy is ~0.780 hartree,
+#: recalled from memory; RPA on HF lies above it).
+HELIUM_FIRST_EXCITATION_SELF_REGRESSION = 0.7969744301
+
+
+def test_helium_first_excitation(helium, helium_lines):
+    solver, energies, _ = helium_lines
+    ionization = -float(helium.orbital_energies[0])  # Koopmans 1s ionization energy, 0.918
+    energy, _ = refine_pole(solver, float(energies[0]), bounds=(0.5 * energies[0], 0.5 * (energies[0] + energies[1])))
+    assert energy < ionization
+    assert energy == pytest.approx(HELIUM_FIRST_EXCITATION_SELF_REGRESSION, abs=1e-9)
+
+
+# --------------------------------------------------------------------------- sum rules
+#: At cutoff 1e9 every particle-hole pair of the grid enters; the TRK sum is then exact in the
+#: discrete space (observed deviations ~1e-11).
+TRK_RTOL = 1e-8
+
+
+@pytest.mark.parametrize("atom", ["helium", "neon"])
+@pytest.mark.parametrize("coupled", [True, False], ids=["coupled", "uncoupled"])
+def test_route_one_strengths_sum_to_energy_weighted_sum(request, atom, coupled):
+    """sum f over all route-1 lines (cutoff 1e9) = S(0) of the solver; coupled S(0) = N."""
+    state = request.getfixturevalue(atom)
+    solver = make_solver(state)
+    _, strengths = rpa_eigen_excitations(solver, cutoff=1e9, coupled=coupled)
+    s0 = solver.energy_weighted_sum(coupled)
+    assert strengths.sum() == pytest.approx(s0, rel=TRK_RTOL, abs=0.0)
+    if coupled:
+        assert strengths.sum() == pytest.approx(state.system.electrons, rel=TRK_RTOL, abs=0.0)
+
+
+@pytest.mark.parametrize("lines", ["helium_lines", "neon_lines"])
+def test_spectral_sums_match_cauchy_moments(request, lines):
+    """sum f/w^2, f/w^4, f/w^6 (route 1, cutoff 1e3) = S(-2), S(-4), S(-6) of the solver.
+
+    The missing lines above 1e3 hartree weigh ~(w/1e3)^-2 less than their share of S(0); observed
+    deviations <= 7e-11.
+    """
+    solver, energies, strengths = request.getfixturevalue(lines)
+    moments = solver.cauchy_moments()
+    spectral = [float(np.sum(strengths / energies ** (2 * k))) for k in (1, 2, 3)]
+    assert spectral == pytest.approx(list(moments), rel=1e-9, abs=0.0)
+
+
+def test_uncoupled_lines_are_fock_eigenvalue_differences(helium):
+    """Without coupling, route 1 returns e_v - e_1s for the p virtuals of F (the V^N spectrum)."""
+    solver = make_solver(helium)
+    energies, _ = rpa_eigen_excitations(solver, cutoff=1e3, coupled=False)
+    values, _, virtual = solver.spectra[1]
+    differences = np.sort(values[virtual] - helium.orbital_energies[0])
+    np.testing.assert_allclose(energies, differences[differences < 1e3], rtol=1e-12, atol=1e-12)
+
+
+# --------------------------------------------------------------------------- residue
+def test_polarizability_near_pole_is_the_pole_term(helium_lines):
+    """alpha(w) = f1/(w1^2 - w^2) + regular: (w1^2 - w^2) alpha(w) -> f1 linearly in the distance.
+
+    At w = w1 (1 - d): the relative deviation is (w1^2 - w^2) * background / f1 ~ 2 d * 6.5 for He
+    (observed 1.3e-3 at d = 1e-4), so it must fall tenfold per decade of d.
+    """
+    solver, energies, strengths = helium_lines
+    pole, residue = refine_pole(solver, float(energies[0]), bounds=(0.5 * energies[0], 0.5 * (energies[0] + energies[1])))
+    deviations = []
+    for distance in (1e-3, 1e-4, 1e-5):
+        w = pole * (1.0 - distance)
+        value = solver.polarizability(solver.solve(w))
+        deviations.append((pole**2 - w**2) * value / residue - 1.0)
+    assert abs(deviations[-1]) < 1e-3
+    for coarse, fine in zip(deviations, deviations[1:]):
+        assert coarse / fine == pytest.approx(10.0, rel=0.02)
+    assert residue == pytest.approx(strengths[0], rel=ROUTE_STRENGTH_RTOL)
