@@ -305,3 +305,37 @@ def test_cli_unexpected_error_exits_1_with_one_line(monkeypatch):
     err = io.StringIO()
     assert tdhf.cli.main(["atom", "He", "-v"], stdout=out, stderr=err) == 1
     assert "Traceback" in err.getvalue()
+
+
+def test_cli_frequency_above_first_excitation_exits_2_and_keeps_the_rest(tmp_path):
+    """A real frequency above the He 1P line (~0.797 hartree, self-regression) is refused, the others are written."""
+    run = tdhf("atom", "He", "--multipoles", "1", "--frequencies", "0", "0.9", "--json", "out.json", cwd=tmp_path)
+    assert run.returncode == 2
+    assert "Traceback" not in run.stderr
+    (error,) = [line for line in run.stderr.splitlines() if line.startswith("tdhf: error:")]
+    assert "response.frequencies[1]: 0.9 hartree is at or above the first dipole excitation (0.796974 hartree)" in error
+    data = json.loads((tmp_path / "out.json").read_text())
+    assert [row["frequency"] for row in data["polarizabilities"]] == [0.0]
+    assert data["rejected"] and data["rejected"][0].startswith("response.frequencies[1]")
+
+
+def test_cli_certify_compares_every_number_on_a_finer_grid(tmp_path):
+    """Common practice, no source: a two-grid comparison; the defaults hold He to 1e-9 relative."""
+    run = tdhf("atom", "He", "--multipoles", "1", "--frequencies", "0", "--certify", "--json", "out.json", "-q",
+               cwd=tmp_path)
+    assert run.returncode == 0, run.stderr
+    rows = json.loads((tmp_path / "out.json").read_text())["certification"]
+    quantities = {row["quantity"] for row in rows}
+    assert {"ground_state.total_energy", "polarizabilities[0].coupled", "sum_rules[0].value"} <= quantities
+    assert max(row["relative_difference"] for row in rows) < 1e-9
+
+
+def test_broadened_response_has_absorption(tmp_path):
+    """Im alpha(omega + i eta) > 0 for omega > 0 (absorption sign convention, analytic)."""
+    deck = tmp_path / "he.toml"
+    deck.write_text('[atom]\nelement = "He"\n[response]\nfrequencies = [0.5, 0.9]\nbroadening = 0.01\n')
+    run = tdhf("run", str(deck), "--json", "out.json", "-q", cwd=tmp_path)
+    assert run.returncode == 0, run.stderr
+    rows = json.loads((tmp_path / "out.json").read_text())["polarizabilities"]
+    assert [row["frequency"] for row in rows] == [0.5, 0.9]  # above the first line is allowed when broadened
+    assert all(row["coupled_imaginary_part"] > 0.0 and row["broadening"] == 0.01 for row in rows)
