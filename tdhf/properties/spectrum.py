@@ -184,7 +184,7 @@ def refine_pole(
 
 
 #: Relative offset of the second starting point of the secant search.
-POLE_OFFSET = 1e-3
+POLE_OFFSET = 1e-5
 #: Relative tolerance on omega^2 at a pole.
 POLE_TOLERANCE = 1e-12
 POLE_MAX_STEPS = 12
