@@ -188,6 +188,11 @@ def _one_multipole(state, L, frequencies, imaginary_frequencies, coupled, broade
     eigen = rpa_eigen_excitations(solver, coupled=coupled)
     excitations = lowest_excitations(solver, count=count, coupled=coupled, eigen=eigen)
     rows["excitations"].extend(excitations)
+    if not excitations:
+        notes.append(
+            f"response: {state.system.name} has no bound {name} excitation below the ionization threshold"
+            f" ({-float(solver.orbital_energies.max()):.6f} hartree); the {name} spectrum is a continuum there"
+        )
     # Above the ionization threshold the spectrum is continuous: no real alpha either.
     threshold = -float(solver.orbital_energies.max())
     first = min(excitations[0].energy if excitations else math.inf, threshold)

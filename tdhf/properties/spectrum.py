@@ -198,14 +198,16 @@ def lowest_excitations(
     coupled: bool = True,
     eigen: tuple[np.ndarray, np.ndarray] | None = None,
 ) -> tuple[Excitation, ...]:
-    """The ``count`` lowest excitations with f > 1e-10, refined as poles of the full response.
+    """The ``count`` lowest bound excitations with f > 1e-10, refined as poles of the full response.
 
+    Only states below the ionization threshold (-epsilon_HOMO) are returned: above it the box
+    discretizes a continuum and its pseudo-states depend on the box radius.
     ``eigen`` reuses a route-1 result (energies, strengths) instead of recomputing it.
     """
     ionization = -float(solver.orbital_energies.max())
     energies, strengths = eigen if eigen is not None else rpa_eigen_excitations(solver, coupled=coupled)
     found = []
-    visible = [(e, f) for e, f in zip(energies, strengths) if f >= 1e-10 and e > 0.0]
+    visible = [(e, f) for e, f in zip(energies, strengths) if f >= 1e-10 and 0.0 < e < ionization]
     for i, (energy, strength) in enumerate(visible):
         below = 0.5 * (visible[i - 1][0] + energy) if i else 0.5 * energy
         above = 0.5 * (visible[i + 1][0] + energy) if i + 1 < len(visible) else 2.0 * energy
