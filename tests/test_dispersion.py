@@ -1,0 +1,352 @@
+"""Tests of the Casimir–Polder dispersion coefficients (tdhf.properties.dispersion).
+
+Evidence, in the order of STYLE.md:
+
+1. exact invariants: the imaginary-frequency rule integrates its rational "polynomials" exactly;
+   the angular factors of the module's derivation (Vandermonde); the London one-pole limit of the
+   prefactors; hydrogen, the exact one-electron limit of TDHF, against the exact H-H C6, C8, C10;
+   A-B against B-A bit for bit; Cauchy–Schwarz between unlike and like pairs; the large-frequency
+   tail alpha_1(i w) -> N / w^2;
+2. cross-implementation agreement: two worker processes against the serial loop (slow);
+3. convergence: the error estimate against a 96-point rule; the default grid against
+   ``GridSettings.tight()``;
+4. published values, source beside each number;
+5. self-regression values, labelled as such;
+plus the non-convergence policy (a failing partner loses no other pair), progress, CSV/JSON
+output and the driver's call.
+
+Units: C6, C8, C10 in hartree bohr^6, ^8, ^10; frequencies in hartree.
+"""
+
+from __future__ import annotations
+
+import csv
+import dataclasses
+import math
+
+import numpy as np
+import pytest
+
+from tdhf.deck import parse_deck
+from tdhf.driver import result_to_json, run_deck
+from tdhf.errors import ConvergenceError, InputError
+from tdhf.ground_state import GroundState, solve_ground_state
+from tdhf.properties import dispersion
+from tdhf.properties.dispersion import (
+    CSV_COLUMNS,
+    ERROR_FLOOR,
+    RELATIVE_ERROR_GOAL,
+    casimir_polder_coefficients,
+    companion_points,
+    compute_dispersion,
+    dispersion_table,
+    imaginary_frequency_rule,
+    imaginary_polarizabilities,
+    write_polarizability_csv,
+)
+from tdhf.radial.mesh import GridSettings
+from tdhf.report.serialize import to_jsonable
+from tdhf.system import System
+
+#: Exact nonrelativistic H(1s)-H(1s) coefficients, hartree bohr^2n, as quoted in the literature
+#: (A. J. Thakkar, J. Chem. Phys. 89, 2092 (1988); Z.-C. Yan, J. F. Babb, A. Dalgarno and
+#: G. W. F. Drake, Phys. Rev. A 54, 2824 (1996)); digits from memory.
+HYDROGEN_C6 = 6.499026705
+HYDROGEN_C8 = 124.3990835
+HYDROGEN_C10 = 3285.828414
+#: Quoted to 10 digits; our radial grid and quadrature reproduce them to ~1e-9 (measured), so
+#: 1e-7 tests the prefactors with a wide margin and still catches any wrong rational factor.
+HYDROGEN_RTOL = 1e-7
+
+#: Accurate (correlated) He-He C6 = 1.460978 hartree bohr^6: Yan, Babb, Dalgarno & Drake,
+#: Phys. Rev. A 54, 2824 (1996); from memory.
+HELIUM_C6_ACCURATE = 1.460978
+#: Self-regression value of this code (default grid, default quadrature), not a reference: TDHF
+#: He-He C6 = 1.3756227, i.e. 5.8 per cent below the correlated value (TDHF underestimates
+#: alpha_1(0) of He by 4.4 per cent, 1.3222 against 1.3832, and C6 ~ alpha^2).
+HELIUM_C6_TDHF = 1.3756227
+#: Agreement of the default and the tight radial grid (measured: 5e-12 for He).
+GRID_RTOL = 1e-6
+
+
+def solve(element: str, grid: GridSettings = GridSettings()) -> GroundState:
+    return solve_ground_state(System.from_input(element), grid)
+
+
+@pytest.fixture(scope="module")
+def hydrogen() -> GroundState:
+    """H 1s1: TDHF of one electron is exact (no electron-electron terms)."""
+    return solve("H")
+
+
+@pytest.fixture(scope="module")
+def helium_neon(helium, neon):
+    """The He, Ne series at default accuracy: rows He-He, He-Ne, Ne-Ne."""
+    return dispersion_table([helium, neon])
+
+
+# --------------------------------------------------------------------------------------------
+# 1. exact invariants
+
+
+@pytest.mark.parametrize("scale", [0.5, 1.7])
+def test_rule_is_exact_for_its_rational_polynomials(scale):
+    """On w = s(1+t)/(1-t), w^k/(w+s)^(k+2) dw = ((1+t)/2)^k dt/(2s): exact for k <= 2n-1."""
+    points = 8
+    nodes, weights = imaginary_frequency_rule(points, scale)
+    assert np.all(np.diff(nodes) > 0) and nodes[0] > 0 and np.all(weights > 0)
+    for k in range(2 * points):
+        value = weights @ (nodes**k / (nodes + scale) ** (k + 2))
+        assert value == pytest.approx(1.0 / (scale * (k + 1)), rel=1e-13), k
+
+
+def test_angular_factors_follow_vandermonde():
+    """sum_m (lA+lB)!^2 / ((lA+m)!(lA-m)!(lB+m)!(lB-m)!) = (2lA+2lB)!/((2lA)!(2lB)!), in integers."""
+    f = math.factorial
+    for l_a in range(1, 5):
+        for l_b in range(1, 5):
+            total = sum(
+                f(l_a + l_b) ** 2 // (f(l_a + m) * f(l_a - m) * f(l_b + m) * f(l_b - m))
+                for m in range(-min(l_a, l_b), min(l_a, l_b) + 1)
+            )
+            assert total == f(2 * l_a + 2 * l_b) // (f(2 * l_a) * f(2 * l_b))
+    # The factors of C6, C8 and C10 (divided by 2 pi: 3/pi, 15/(2 pi), 14/pi and 35/pi).
+    assert [math.comb(4, 2), math.comb(6, 2), math.comb(8, 2), math.comb(8, 4)] == [6, 15, 28, 70]
+
+
+def test_one_pole_model_gives_the_london_formulas():
+    """alpha_l = a_l D_l^2 / (D_l^2 + w^2): int alpha alpha' dw = pi a a' D D' / (2 (D + D'))."""
+    a_strengths, a_poles = np.array([1.3, 2.9, 11.0]), np.array([0.9, 1.2, 1.6])
+    b_strengths, b_poles = np.array([7.0, 40.0, 300.0]), np.array([0.35, 0.5, 0.6])
+    nodes, weights = imaginary_frequency_rule(96)
+    alpha_a = a_strengths[:, None] * a_poles[:, None] ** 2 / (a_poles[:, None] ** 2 + nodes**2)
+    alpha_b = b_strengths[:, None] * b_poles[:, None] ** 2 / (b_poles[:, None] ** 2 + nodes**2)
+
+    def integral(l_a, l_b):
+        d_a, d_b = a_poles[l_a - 1], b_poles[l_b - 1]
+        return math.pi * a_strengths[l_a - 1] * b_strengths[l_b - 1] * d_a * d_b / (2 * (d_a + d_b))
+
+    def cross(l_a, l_b):
+        d_a, d_b = a_poles[l_b - 1], b_poles[l_a - 1]
+        return math.pi * a_strengths[l_b - 1] * b_strengths[l_a - 1] * d_a * d_b / (2 * (d_a + d_b))
+
+    expected = (
+        3 / math.pi * integral(1, 1),
+        15 / (2 * math.pi) * (integral(1, 2) + cross(1, 2)),
+        14 / math.pi * (integral(1, 3) + cross(1, 3)) + 35 / math.pi * integral(2, 2),
+    )
+    assert casimir_polder_coefficients(weights, alpha_a, alpha_b) == pytest.approx(expected, rel=1e-12)
+
+
+def test_hydrogen_reproduces_the_exact_coefficients(hydrogen):
+    result = compute_dispersion(hydrogen, (hydrogen,))
+    (row,) = result.coefficients
+    assert row.pair == ("H", "H") and row.converged and result.warnings == ()
+    assert row.C6 == pytest.approx(HYDROGEN_C6, rel=HYDROGEN_RTOL)
+    assert row.C8 == pytest.approx(HYDROGEN_C8, rel=HYDROGEN_RTOL)
+    assert row.C10 == pytest.approx(HYDROGEN_C10, rel=HYDROGEN_RTOL)
+    assert len(result.polarizability_tables) == 1  # the like pair is solved once
+
+
+def test_pairs_are_symmetric_to_the_last_bit(helium, neon):
+    """A-B and B-A from separate runs (8-point base rule: cheap, and it must warn)."""
+    with pytest.warns(RuntimeWarning, match="He-Ne: quadrature error estimate above the goal"):
+        forward = compute_dispersion(helium, (neon,), quadrature_points=8).coefficients[0]
+    with pytest.warns(RuntimeWarning, match="Ne-He: quadrature error estimate above the goal"):
+        backward = compute_dispersion(neon, (helium,), quadrature_points=8).coefficients[0]
+    assert forward.pair == ("He", "Ne") and backward.pair == ("Ne", "He")
+    for name in ("C6", "C8", "C10", "C6_error", "C8_error", "C10_error"):
+        assert getattr(forward, name) == getattr(backward, name), name
+    assert not forward.converged  # 8 points miss the 1e-6 goal (C6 by 1e-5)
+
+
+def test_cauchy_schwarz_bounds_unlike_pairs(helium_neon):
+    """With positive weights, C6(A,B)^2 <= C6(A,A) C6(B,B) holds exactly for the discrete sums."""
+    he_he, he_ne, ne_ne = helium_neon.coefficients
+    assert [row.pair for row in helium_neon.coefficients] == [("He", "He"), ("He", "Ne"), ("Ne", "Ne")]
+    assert he_ne.C6**2 < he_he.C6 * ne_ne.C6
+    # Same for the alpha_2 alpha_2 part of C10, from the tables.
+    he, ne = helium_neon.polarizability_tables
+    weights = np.array(he.weights)
+    cross = weights @ (np.array(he.quadrupole) * np.array(ne.quadrupole))
+    assert cross**2 < (weights @ np.array(he.quadrupole) ** 2) * (weights @ np.array(ne.quadrupole) ** 2)
+
+
+def test_dipole_tail_is_the_electron_count(helium):
+    """alpha_1(i w) -> S(0)/w^2 = N/w^2 (Thomas-Reiche-Kuhn); the next term is O(w^-4)."""
+    (alpha,) = imaginary_polarizabilities(helium, np.array([1e4]), (1,))[:, 0]
+    assert 1e8 * alpha == pytest.approx(2.0, abs=1e-3)
+
+
+# --------------------------------------------------------------------------------------------
+# 3. convergence
+
+
+def _reference(states, points=96):
+    """Coefficients of every pair of ``states`` from one rule of ``points`` nodes."""
+    nodes, weights = imaginary_frequency_rule(points)
+    alphas = [imaginary_polarizabilities(state, nodes) for state in states]
+    return {
+        (i, j): casimir_polder_coefficients(weights, alphas[i], alphas[j])
+        for i in range(len(states)) for j in range(i, len(states))
+    }
+
+
+def _assert_honest(result, reference):
+    for row, ((i, j), exact) in zip(result.coefficients, reference.items()):
+        for name, value in zip(("C6", "C8", "C10"), exact):
+            actual = abs(getattr(row, name) - value)
+            estimate = getattr(row, f"{name}_error")
+            assert actual <= estimate, (row.pair, name, actual, estimate)
+            assert estimate <= RELATIVE_ERROR_GOAL * abs(value), (row.pair, name)
+        assert row.converged
+
+
+def test_error_estimate_is_honest_and_small(helium, neon, helium_neon):
+    _assert_honest(helium_neon, _reference([helium, neon]))
+    he_he = helium_neon.coefficients[0]
+    assert he_he.C6_error == pytest.approx(ERROR_FLOOR * he_he.C6)  # He converges to the floor
+
+
+@pytest.mark.slow
+def test_error_estimate_is_honest_for_heavy_atoms():
+    """Ca, Xe and Cd converge irregularly (deep p and d shells); the floor must cover it."""
+    states = [solve(name) for name in ("Ca", "Xe", "Cd")]
+    _assert_honest(dispersion_table(states), _reference(states))
+
+
+def test_default_grid_matches_tight_grid(helium):
+    tight = solve("He", GridSettings.tight())
+    assert tight.grid_points > helium.grid_points
+    (fine,) = compute_dispersion(tight, (tight,)).coefficients
+    (default,) = compute_dispersion(helium, (helium,)).coefficients
+    for name in ("C6", "C8", "C10"):
+        assert getattr(default, name) == pytest.approx(getattr(fine, name), rel=GRID_RTOL)
+
+
+# --------------------------------------------------------------------------------------------
+# 4., 5. published and self-regression values
+
+
+def test_helium_c6_lies_a_few_per_cent_below_the_accurate_value(helium_neon):
+    he_he = helium_neon.coefficients[0]
+    ratio = he_he.C6 / HELIUM_C6_ACCURATE
+    assert 0.93 < ratio < 0.955  # TDHF misses correlation: 0.9416 here
+    assert he_he.C6 == pytest.approx(HELIUM_C6_TDHF, rel=GRID_RTOL)  # self-regression
+
+
+# --------------------------------------------------------------------------------------------
+# series, progress, failures
+
+
+def test_series_has_every_unordered_pair_and_reports_progress(helium, beryllium):
+    calls = []
+    result = dispersion_table([helium, beryllium], progress=lambda done, total: calls.append((done, total)))
+    assert [row.pair for row in result.coefficients] == [("He", "He"), ("He", "Be"), ("Be", "Be")]
+    assert [table.system for table in result.polarizability_tables] == ["He", "Be"]
+    done = [d for d, _ in calls]
+    total = {t for _, t in calls}
+    nodes = 24 + companion_points(24)
+    assert total == {2 * 3 * nodes} and done == sorted(done) and done[-1] == 2 * 3 * nodes
+    table = result.polarizability_tables[0]
+    assert len(table.frequencies) == len(table.weights) == len(table.octupole) == companion_points(24)
+
+
+@pytest.mark.slow
+def test_two_workers_give_the_serial_numbers(helium, beryllium):
+    serial = dispersion_table([helium, beryllium])
+    parallel = dispersion_table([helium, beryllium], workers=2)
+    assert parallel == serial
+
+
+class _FailingSolver(dispersion.ResponseSolver):
+    """ResponseSolver that fails on the grid ``target_grid``, in the way given by ``mode``."""
+
+    target_grid = None
+    mode = "raise"
+
+    def solve(self, *args, **kwargs):
+        first_order = super().solve(*args, **kwargs)
+        if self.grid is self.target_grid:
+            if self.mode == "raise":
+                raise ConvergenceError("response: GMRES did not converge (test double)")
+            return dataclasses.replace(first_order, plus=np.full_like(first_order.plus, np.nan))
+        return first_order
+
+
+@pytest.mark.parametrize("mode", ["raise", "nan"])
+def test_failing_partner_loses_no_other_pair(helium, neon, monkeypatch, mode):
+    monkeypatch.setattr(_FailingSolver, "mode", mode)
+    monkeypatch.setattr(_FailingSolver, "target_grid", neon.grid)
+    monkeypatch.setattr(dispersion, "ResponseSolver", _FailingSolver)
+    with pytest.warns(RuntimeWarning) as record:
+        result = compute_dispersion(helium, (neon, helium))
+    messages = [str(w.message) for w in record]
+    assert messages == list(result.warnings)
+    for multipole, message in zip((1, 2, 3), messages):
+        assert message.startswith(f"dispersion: Ne: the L={multipole} response failed (ConvergenceError: ")
+    failed, fine = result.coefficients
+    assert failed.pair == ("He", "Ne") and not failed.converged
+    assert all(math.isnan(getattr(failed, name)) for name in ("C6", "C8", "C10", "C6_error"))
+    assert fine.pair == ("He", "He") and fine.converged
+    assert fine.C6 == pytest.approx(HELIUM_C6_TDHF, rel=GRID_RTOL)
+    assert all("Ne" in note for note in result.warnings) and len(result.warnings) == 3  # L = 1, 2, 3
+    assert math.isnan(result.polarizability_tables[1].dipole[0])
+
+
+def test_unconverged_ground_state_is_skipped_with_a_note(helium):
+    broken = dataclasses.replace(helium, converged=False)
+    with pytest.warns(RuntimeWarning, match="He: skipped; its ground state did not converge"):
+        result = compute_dispersion(helium, (broken, helium))
+    assert [row.converged for row in result.coefficients] == [False, True]
+    assert math.isnan(result.coefficients[0].C6)
+
+
+@pytest.mark.parametrize("points", [4, 7, 97, 24.0, True])
+def test_quadrature_points_out_of_range(helium, points):
+    with pytest.raises(InputError, match="dispersion.quadrature_points"):
+        compute_dispersion(helium, (helium,), quadrature_points=points)
+
+
+def test_workers_must_be_positive(helium):
+    with pytest.raises(InputError, match="workers"):
+        dispersion_table([helium], workers=0)
+
+
+# --------------------------------------------------------------------------------------------
+# output and the driver
+
+
+def test_csv_round_trips_the_tables(helium_neon, tmp_path):
+    path = tmp_path / "alpha.csv"
+    write_polarizability_csv(path, helium_neon.polarizability_tables)
+    with path.open(newline="") as stream:
+        rows = list(csv.reader(stream))
+    assert tuple(rows[0]) == CSV_COLUMNS
+    body = rows[1:]
+    he, ne = helium_neon.polarizability_tables
+    assert len(body) == len(he.frequencies) + len(ne.frequencies)
+    first, last = body[0], body[-1]
+    assert first[0] == "He" and last[0] == "Ne"
+    assert [float(x) for x in first[1:]] == [he.frequencies[0], he.weights[0], he.dipole[0],
+                                             he.quadrupole[0], he.octupole[0]]
+    assert float(last[5]) == ne.octupole[-1]
+    assert [p.name for p in tmp_path.iterdir()] == ["alpha.csv"]  # no temporary left behind
+
+
+def test_json_form_has_the_documented_keys(helium_neon):
+    data = to_jsonable(helium_neon)
+    assert sorted(data) == ["coefficients", "polarizability_tables", "warnings"]
+    assert sorted(data["coefficients"][0]) == sorted(
+        ["pair", "C6", "C8", "C10", "C6_error", "C8_error", "C10_error", "converged"])
+    assert data["coefficients"][1]["pair"] == ["He", "Ne"]
+    assert sorted(data["polarizability_tables"][0]) == sorted(
+        ["system", "frequencies", "weights", "dipole", "quadrupole", "octupole"])
+
+
+def test_driver_runs_a_dispersion_deck():
+    result = run_deck(parse_deck('[atom]\nelement = "He"\n[dispersion]\npartners = ["He"]\n'))
+    (row,) = result.dispersion
+    assert row.pair == ("He", "He") and row.converged
+    assert row.C6 == pytest.approx(HELIUM_C6_TDHF, rel=GRID_RTOL)
+    assert result_to_json(result)["dispersion"][0]["C6"] == row.C6
