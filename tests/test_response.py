@@ -594,3 +594,16 @@ def test_coupled_solve_reaches_krylov_tolerance(argon):
     assert first_order.coupled
     assert 0 < first_order.krylov_iterations < 60
     assert first_order.residual < 10.0 * KRYLOV_TOLERANCE
+
+
+@pytest.mark.parametrize("multipole", [1, 2])
+def test_imaginary_axis_real_form_matches_the_general_complex_solve(neon, multipole):
+    """Identity: at omega = i nu, rho- = conj(rho+); the real-form fast path equals the general solve."""
+    solver = ResponseSolver(neon.grid, neon.system.Z, neon.shells, neon.orbital_energies, multipole)
+    rhs = solver.perturbation()
+    for nu in (0.05, 0.7, 9.0):
+        fast = solver.solve(1j * nu)
+        general = solver.solve(1j * nu, rhs=(rhs, rhs.copy()))  # a copy takes the general path
+        np.testing.assert_allclose(fast.minus, fast.plus.conj(), rtol=0, atol=0)
+        np.testing.assert_allclose(fast.plus, general.plus, rtol=0, atol=1e-11 * np.abs(general.plus).max())
+        assert solver.polarizability(fast) == pytest.approx(solver.polarizability(general), rel=1e-12)

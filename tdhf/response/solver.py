@@ -252,6 +252,9 @@ class ResponseSolver:
             rhs_plus, rhs_minus = rhs
         if isinstance(frequency, complex) and frequency.imag == 0.0:
             frequency = frequency.real
+        imaginary_axis = isinstance(frequency, complex) and frequency.real == 0.0
+        if imaginary_axis and rhs_plus is rhs_minus and not np.iscomplexobj(rhs_plus):
+            return self._solve_imaginary_axis(frequency, rhs_plus, coupled, tolerance, max_cycles)
         plus0 = self.resolvent(rhs_plus, frequency, +1)
         minus0 = self.resolvent(rhs_minus, frequency, -1)
         if not coupled or not self.interacting:
@@ -267,8 +270,44 @@ class ResponseSolver:
                 [self.resolvent(c_plus, frequency, +1).ravel(), self.resolvent(c_minus, frequency, -1).ravel()]
             )
 
-        operator = LinearOperator((2 * size, 2 * size), matvec=apply, dtype=plus0.dtype)
         start = np.concatenate([plus0.ravel(), minus0.ravel()])
+        solution, steps, residual = self._krylov(apply, start, tolerance, max_cycles)
+        logger.debug("response L=%d omega=%s: %d Krylov steps, residual %.2e", self.multipole, frequency, steps, residual)
+        return FirstOrderOrbitals(
+            self.multipole, frequency, True, solution[:size].reshape(shape), solution[size:].reshape(shape),
+            steps, residual,
+        )
+
+    def _solve_imaginary_axis(
+        self, frequency: complex, rhs: np.ndarray, coupled: bool, tolerance: float, max_cycles: int
+    ) -> FirstOrderOrbitals:
+        r"""At omega = i nu with a real right-hand side, rho- = conj(rho+): solve for rho+ only.
+
+        The coupling is real-linear, so with rho+ = x + i y it splits into real products,
+        :math:`c^+(\rho^+, \rho^-) = c^+(x, x) + i\,c^+(y, -y)`, and GMRES runs on the real pair
+        (x, y): half the unknowns of the general complex solve, and no complex kernel products.
+        """
+        plus0 = self.resolvent(rhs, frequency, +1)
+        if not coupled or not self.interacting:
+            return FirstOrderOrbitals(self.multipole, frequency, coupled, plus0, plus0.conj(), 0, 0.0)
+        shape, size = plus0.shape, plus0.size
+
+        def apply(vector: np.ndarray) -> np.ndarray:
+            x, y = vector[:size].reshape(shape), vector[size:].reshape(shape)
+            c_plus, _ = self.coupling(np.stack([x, y]), np.stack([x, -y]))
+            image = self.resolvent(c_plus[0] + 1j * c_plus[1], frequency, +1)
+            return vector - np.concatenate([image.real.ravel(), image.imag.ravel()])
+
+        start = np.concatenate([plus0.real.ravel(), plus0.imag.ravel()])
+        solution, steps, residual = self._krylov(apply, start, tolerance, max_cycles)
+        plus = (solution[:size] + 1j * solution[size:]).reshape(shape)
+        logger.debug("response L=%d omega=%s: %d Krylov steps, residual %.2e", self.multipole, frequency, steps, residual)
+        return FirstOrderOrbitals(self.multipole, frequency, True, plus, plus.conj(), steps, residual)
+
+    @staticmethod
+    def _krylov(apply, start: np.ndarray, tolerance: float, max_cycles: int) -> tuple[np.ndarray, int, float]:
+        """GMRES on ``apply(x) = start`` from x0 = start; returns (x, steps, relative residual)."""
+        operator = LinearOperator((start.size, start.size), matvec=apply, dtype=start.dtype)
         count = [0]
 
         def callback(_residual_norm):
@@ -279,11 +318,7 @@ class ResponseSolver:
             maxiter=max_cycles, callback=callback, callback_type="pr_norm",
         )
         residual = float(np.linalg.norm(apply(solution) - start) / np.linalg.norm(start))
-        logger.debug("response L=%d omega=%s: %d Krylov steps, residual %.2e", self.multipole, frequency, count[0], residual)
-        return FirstOrderOrbitals(
-            self.multipole, frequency, True, solution[:size].reshape(shape), solution[size:].reshape(shape),
-            count[0], residual,
-        )
+        return solution, count[0], residual
 
     def project(self, rhs: np.ndarray) -> np.ndarray:
         """Remove the occupied components of symmetry l' from each channel row."""
