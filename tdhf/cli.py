@@ -26,9 +26,10 @@ from typing import Any, Iterator, Sequence, TextIO
 
 from rich.console import Console
 
-from tdhf.deck import Deck, build_deck, load_deck
+from tdhf.deck import Deck, build_deck, load_deck, parse_system_name
 from tdhf.driver import certify, program_info, result_to_json, run_deck
 from tdhf.errors import ConvergenceError, InputError
+from tdhf.properties.dispersion import write_polarizability_csv
 from tdhf.report.serialize import write_json
 from tdhf.report.terminal import print_report
 
@@ -74,6 +75,15 @@ def build_parser() -> argparse.ArgumentParser:
                       help="real response frequencies, hartree")
     atom.add_argument("--imaginary", type=float, nargs="+", metavar="W",
                       help="imaginary response frequencies, hartree")
+
+    pairs = commands.add_parser("pairs", parents=[common], help="C6, C8, C10 for every pair of a list of systems",
+                                description="Dispersion coefficients of all pairs (like pairs included).")
+    pairs.add_argument("systems", metavar="SYSTEM", nargs="+", help='systems such as "He", "Na+", "Cl-"')
+    pairs.add_argument("--points", type=int, help="imaginary-frequency quadrature points (default 24)")
+    pairs.add_argument("--tight", action="store_true", help="use the tight grid preset")
+    for command in (run, pairs):
+        command.add_argument("--csv", metavar="ALPHA.csv", type=Path,
+                             help="also write alpha_L(i w) on the dispersion quadrature grid as CSV")
     return parser
 
 
@@ -81,12 +91,21 @@ def _deck_from_arguments(args: argparse.Namespace) -> Deck:
     """The deck of ``tdhf run``, or the deck ``tdhf atom`` options describe (same validation)."""
     if args.command == "run":
         return load_deck(args.deck)
+    if args.command == "pairs":
+        element, charge = parse_system_name(args.systems[0], "systems[0]")
+        data: dict[str, Any] = {"atom": {"element": element, "charge": charge},
+                                "dispersion": {"systems": args.systems[1:] or args.systems[:1]}}
+        if args.points is not None:
+            data["dispersion"]["quadrature_points"] = args.points
+        if args.tight:
+            data["grid"] = {"preset": "tight"}
+        return build_deck(data)
     atom: dict[str, Any] = {"element": args.element}
     if args.charge is not None:
         atom["charge"] = args.charge
     if args.configuration is not None:
         atom["configuration"] = args.configuration
-    data: dict[str, Any] = {"atom": atom}
+    data = {"atom": atom}
     if args.tight:
         data["grid"] = {"preset": "tight"}
     response = {key: value for key, value in (("multipoles", args.multipoles), ("frequencies", args.frequencies),
@@ -203,6 +222,11 @@ def _execute(args: argparse.Namespace, stdout: TextIO, err_console: Console) -> 
             result = dataclasses.replace(result, certification=certify(result, deck, progress=progress))
     if json_path is not None:
         write_json(json_path, result_to_json(result))
+    csv_path = getattr(args, "csv", None)
+    if csv_path is not None:
+        if not result.polarizability_tables:
+            raise InputError("--csv: there are no alpha(i w) tables without a [dispersion] table in the deck")
+        write_polarizability_csv(csv_path, result.polarizability_tables)
     if not args.quiet:
         console = Console(file=stdout)
         if not console.is_terminal:

@@ -32,6 +32,7 @@ A deck has one table per part of the calculation; only ``[atom]`` is required::
 
     [dispersion]                   # optional: dispersion coefficients with partner systems
     partners = ["He", "Na+"]       # each paired with the [atom] system
+    # systems = ["Ne", "Ar"]       # instead: every pair among [atom] and these (a series table)
     quadrature_points = 24         # points of the imaginary-frequency quadrature, 8..96
 
 Validation is strict: an unknown table or key, a value of the wrong type (a boolean is not an
@@ -65,6 +66,7 @@ from tdhf.errors import DeckError, FrequencyError, InputError, UnknownElementErr
 from tdhf.radial.mesh import GridSettings
 from tdhf.scf import ScfSettings
 from tdhf.system import System
+from tdhf.properties.dispersion import DEFAULT_QUADRATURE_POINTS, QUADRATURE_RANGE
 
 __all__ = [
     "SCHEMA_VERSION",
@@ -84,8 +86,6 @@ SCHEMA_VERSION = 1
 #: Multipole orders the response accepts: dipole, quadrupole, octupole.
 MULTIPOLE_RANGE = (1, 3)
 #: Allowed number of imaginary-frequency quadrature points for dispersion coefficients.
-QUADRATURE_RANGE = (8, 96)
-DEFAULT_QUADRATURE_POINTS = 24
 GRID_PRESETS: dict[str, Callable[[], GridSettings]] = {"default": GridSettings, "tight": GridSettings.tight}
 
 
@@ -115,9 +115,14 @@ class ResponseSection:
 
 @dataclass(frozen=True)
 class DispersionSection:
-    """``[dispersion]``: partner systems (names such as "He", "Na+", "Cl-") and the quadrature size."""
+    """``[dispersion]``: partner systems (names such as "He", "Na+", "Cl-") and the quadrature size.
 
-    partners: tuple[str, ...]
+    ``partners``: each is paired with the ``[atom]`` system.  ``systems``: a series; every
+    unordered pair among ``[atom]`` and these systems (like pairs included) is computed.
+    """
+
+    partners: tuple[str, ...] = ()
+    systems: tuple[str, ...] = ()
     quadrature_points: int = DEFAULT_QUADRATURE_POINTS
 
 
@@ -285,22 +290,28 @@ def _frequencies(path: str, value: Any) -> tuple[float, ...]:
 
 def _dispersion(table: Mapping[str, Any]) -> DispersionSection:
     _check_keys("dispersion", table, _field_names(DispersionSection))
-    if "partners" not in table:
-        raise DeckError('dispersion.partners: missing; list the partner systems, e.g. partners = ["He", "Na+"]')
-    partners = []
-    for i, item in enumerate(_array("dispersion.partners", table["partners"], allow_empty=False)):
-        path = f"dispersion.partners[{i}]"
+    given = [key for key in ("partners", "systems") if key in table]
+    if len(given) != 1:
+        raise DeckError(
+            'dispersion: give either partners (pairs with [atom], e.g. partners = ["He", "Na+"]) or systems'
+            ' (all pairs of a series, e.g. systems = ["Ne", "Ar", "Kr"])'
+            + ("" if given else "; neither is present")
+        )
+    key = given[0]
+    names = []
+    for i, item in enumerate(_array(f"dispersion.{key}", table[key], allow_empty=False)):
+        path = f"dispersion.{key}[{i}]"
         name = _string(path, item)
         element, charge = parse_system_name(name, path)
         try:
-            partners.append(System.from_input(element, charge).name)  # canonical: "na1+" -> "Na+"
+            names.append(System.from_input(element, charge).name)  # canonical: "na1+" -> "Na+"
         except InputError as err:
             raise type(err)(_partner_message(path, name, str(err))) from None
     low, high = QUADRATURE_RANGE
     points = _integer("dispersion.quadrature_points", table.get("quadrature_points", DEFAULT_QUADRATURE_POINTS))
     _in_range("dispersion.quadrature_points", points, low, high,
               "it is the number of points of the imaginary-frequency quadrature")
-    return DispersionSection(partners=_unique("dispersion.partners", partners), quadrature_points=points)
+    return DispersionSection(**{key: _unique(f"dispersion.{key}", names)}, quadrature_points=points)
 
 
 _ATOM_KEY = re.compile(r"^atom\.\w+: ")
@@ -365,7 +376,8 @@ def format_deck(deck: Deck) -> str:
         lines += ["", f"[{name}]"]
         for field in dataclasses.fields(section):
             value = getattr(section, field.name)
-            if value is not None:
+            # None and the unused one of dispersion.partners/systems (an empty tuple) are left out.
+            if value is not None and value != ():
                 lines.append(f"{field.name} = {_toml_value(value)}")
     return "\n".join(lines) + "\n"
 

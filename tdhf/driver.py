@@ -27,6 +27,7 @@ from typing import Any, Callable
 
 from tdhf.deck import Deck, DispersionSection, ResponseSection, parse_system_name
 from tdhf.ground_state import GroundState, solve_ground_state
+from tdhf.properties.dispersion import compute_dispersion, dispersion_table
 from tdhf.properties.response_properties import NORMALIZATION, compute_response
 from tdhf.radial.mesh import GridSettings
 from tdhf.report.serialize import to_jsonable
@@ -124,6 +125,7 @@ class RunResult:
     excitations: tuple[Any, ...] = ()
     strength_distribution: tuple[Any, ...] = ()
     dispersion: tuple[Any, ...] = ()
+    polarizability_tables: tuple[Any, ...] = ()
     certification: tuple["Certification", ...] = ()
     warnings: tuple[str, ...] = ()
     rejected: tuple[str, ...] = ()
@@ -259,11 +261,9 @@ def run_deck(deck: Deck, progress: Progress | None = None) -> RunResult:
             notes += library_notes
             own_notes += driver_notes
         if deck.dispersion is not None:
-            rows, partners, library_notes, driver_notes = _run_dispersion(
-                ground_state, deck.dispersion, deck.grid, deck.scf, report)
-            fields |= {"dispersion": rows, "partner_ground_states": partners}
+            dispersion_fields, library_notes = _run_dispersion(ground_state, deck.dispersion, deck.grid, deck.scf, report)
+            fields |= dispersion_fields
             notes += library_notes
-            own_notes += driver_notes
     for note in own_notes:
         warnings.warn(note, RuntimeWarning, stacklevel=2)
     return RunResult(atom=system, ground_state=ground_state, warnings=tuple(notes + own_notes),
@@ -293,34 +293,37 @@ def _run_dispersion(
     grid: GridSettings,
     scf: ScfSettings,
     report: Progress,
-) -> tuple[tuple[Any, ...], tuple[GroundState, ...], tuple[str, ...], tuple[str, ...]]:
-    """Dispersion rows, partner ground states, the library's notes and the driver's notes.
+) -> tuple[dict[str, tuple[Any, ...]], tuple[str, ...]]:
+    """Dispersion rows, alpha(i w) tables and partner ground states by RunResult field, and the notes.
 
-    Each partner is solved with the deck's grid and SCF settings; a partner that is the same
-    system as the atom (same name and configuration) reuses its ground state.
+    Each other system is solved with the deck's grid and SCF settings (the atom's own ground state
+    is reused).  A system whose ground state or response fails only marks its own pairs.
     """
-    try:
-        from tdhf.properties.dispersion import compute_dispersion
-    except ImportError as err:
-        if err.name not in ("tdhf.properties", "tdhf.properties.dispersion"):
-            raise  # an import inside tdhf.properties failed: a bug
-        return (), (), (), ("dispersion: not available in this build",)
-    partners = []
-    for name in section.partners:
-        partner = System.from_input(*parse_system_name(name))
-        if partner == ground_state.system:
-            partners.append(ground_state)
+    names = section.partners or section.systems
+    others = []
+    for name in names:
+        system = System.from_input(*parse_system_name(name))
+        if system == ground_state.system:
+            others.append(ground_state)
             continue
-        report(f"ground state of partner {name}")
-        partners.append(solve_ground_state(partner, grid, scf))
-    notes = tuple(note for state in partners if state is not ground_state for note in state.warnings)
-    unconverged = [state.system.name for state in partners if not state.converged]
-    if unconverged:
-        skipped = f"dispersion: skipped; the ground state of {', '.join(unconverged)} did not converge"
-        return (), tuple(partners), notes, (skipped,)
-    report(f"dispersion coefficients of {ground_state.system.name} with {', '.join(section.partners)}")
-    results = compute_dispersion(ground_state, tuple(partners), quadrature_points=section.quadrature_points)
-    return tuple(results.coefficients), tuple(partners), notes + tuple(results.warnings), ()
+        report(f"ground state of {name}")
+        others.append(solve_ground_state(system, grid, scf))
+    notes = tuple(note for state in others if state is not ground_state for note in state.warnings)
+
+    def count(done: int, total: int) -> None:
+        report(f"dispersion: imaginary-frequency responses {done}/{total}")
+
+    if section.partners:
+        results = compute_dispersion(ground_state, tuple(others), quadrature_points=section.quadrature_points)
+    else:
+        series = [ground_state] + [state for state in others if state is not ground_state]
+        results = dispersion_table(series, quadrature_points=section.quadrature_points, progress=count)
+    fields = {
+        "dispersion": tuple(results.coefficients),
+        "polarizability_tables": tuple(results.polarizability_tables),
+        "partner_ground_states": tuple(others),
+    }
+    return fields, notes + tuple(results.warnings)
 
 
 def result_to_json(result: RunResult) -> dict[str, Any]:
@@ -336,6 +339,7 @@ def result_to_json(result: RunResult) -> dict[str, Any]:
             del data[name]
     if result.settings.dispersion is None:
         del data["dispersion"]
+        del data["polarizability_tables"]
     if not result.certification:
         del data["certification"]
     return data

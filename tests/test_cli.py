@@ -339,3 +339,22 @@ def test_broadened_response_has_absorption(tmp_path):
     rows = json.loads((tmp_path / "out.json").read_text())["polarizabilities"]
     assert [row["frequency"] for row in rows] == [0.5, 0.9]  # above the first line is allowed when broadened
     assert all(row["coupled_imaginary_part"] > 0.0 and row["broadening"] == 0.01 for row in rows)
+
+
+def test_cli_pairs_table_json_and_csv(tmp_path):
+    """A series table: every unordered pair once, alpha(i w) exported; H-H C6 = 6.499026705 (exact, from memory)."""
+    run = tdhf("pairs", "H", "He", "--points", "16", "--json", "out.json", "--csv", "alpha.csv", "-q", cwd=tmp_path)
+    assert run.returncode == 0, run.stderr
+    data = json.loads((tmp_path / "out.json").read_text())
+    assert [row["pair"] for row in data["dispersion"]] == [["H", "H"], ["H", "He"], ["He", "He"]]
+    assert data["dispersion"][0]["C6"] == pytest.approx(6.499026705, rel=1e-7)
+    lines = (tmp_path / "alpha.csv").read_text().splitlines()
+    assert lines[0] == "system,frequency_hartree,weight,alpha1,alpha2,alpha3"
+    assert {line.split(",")[0] for line in lines[1:]} == {"H", "He"}
+
+
+def test_cli_pairs_rejects_an_open_shell_system(tmp_path):
+    run = tdhf("pairs", "He", "Na", cwd=tmp_path)
+    assert run.returncode == 2 and "Traceback" not in run.stderr
+    (line,) = run.stderr.splitlines()
+    assert line.startswith("tdhf: error: dispersion.systems[0]") and "3s1" in line

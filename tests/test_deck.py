@@ -79,7 +79,7 @@ def test_full_deck_reads_every_key():
     assert deck.grid == GridSettings(order=12, growth=1.6, first_element=0.005, r_max=50.0)
     assert deck.scf == ScfSettings(1e-11, 1e-8, 80, 6, 0.3)
     assert deck.response == ResponseSection((1, 2, 3), (0.0, 0.1), (0.25, 1.0), False)
-    assert deck.dispersion == DispersionSection(("He", "Na+", "Cl-", "Mg2+"), 16)
+    assert deck.dispersion == DispersionSection(partners=("He", "Na+", "Cl-", "Mg2+"), quadrature_points=16)
 
 
 @pytest.mark.parametrize("text", [FULL_DECK, '[atom]\nelement = 10\n[response]\n',
@@ -220,3 +220,10 @@ def test_bad_deck(name):
 def test_example_inputs_load(path):
     deck = load_deck(path)
     assert parse_deck(format_deck(deck)) == deck
+
+
+def test_dispersion_takes_partners_or_systems_not_both():
+    deck = parse_deck('[atom]\nelement = "He"\n[dispersion]\nsystems = ["Ne", "Ar"]\n')
+    assert deck.dispersion == DispersionSection(systems=("Ne", "Ar"))
+    with pytest.raises(InputError, match=r"^dispersion: give either partners .* or systems"):
+        parse_deck('[atom]\nelement = "He"\n[dispersion]\nsystems = ["Ne"]\npartners = ["Ar"]\n')

@@ -138,11 +138,12 @@ ROW_TABLES: dict[str, tuple[str, tuple[Column, ...]]] = {
         Column("relative change", _field("relative_difference"), ".1e"),
     )),
     "dispersion": ("Dispersion coefficients", (
-        Column("pair", _field("pair")),
+        Column("pair", lambda row: "-".join(_field("pair")(row))),
         Column("C6\n(hartree bohr^6)", _field("C6"), ".8g"),
         Column("C8\n(hartree bohr^8)", _field("C8"), ".8g"),
         Column("C10\n(hartree bohr^10)", _field("C10"), ".8g"),
-        Column("C6 error\n(estimate)", _field("C6_error"), ".1e"),
+        Column("C6 error estimate\n(hartree bohr^6)", _field("C6_error"), ".1e"),
+        Column("C10 error estimate\n(hartree bohr^10)", _field("C10_error"), ".1e"),
     )),
 }
 
