@@ -230,15 +230,15 @@ def run_deck(deck: Deck, progress: Progress | None = None) -> RunResult:
     Returns
     -------
     RunResult
-        Also when the SCF did not converge (``result.converged`` is False).
+        Also when a solver did not converge: ``result.convergence_problems()`` lists the SCF and
+        coupled-response solves that did not, and real frequencies refused at or above an
+        excitation are in ``result.rejected`` (the other frequencies are computed).
 
     Raises
     ------
     InputError
-        A request found impossible while computing (e.g. an anion whose outermost orbital is
-        unbound, a frequency at an excitation energy).
-    ConvergenceError
-        If a response solver gives up.
+        A request found impossible before anything is computed (e.g. an anion whose outermost
+        orbital is unbound).
     """
     report = progress or (lambda stage: None)
     system = deck.atom.to_system()
