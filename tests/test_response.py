@@ -607,3 +607,25 @@ def test_imaginary_axis_real_form_matches_the_general_complex_solve(neon, multip
         np.testing.assert_allclose(fast.minus, fast.plus.conj(), rtol=0, atol=0)
         np.testing.assert_allclose(fast.plus, general.plus, rtol=0, atol=1e-11 * np.abs(general.plus).max())
         assert solver.polarizability(fast) == pytest.approx(solver.polarizability(general), rel=1e-12)
+
+
+def test_box_grows_near_a_resonance_and_matches_a_large_box(helium):
+    """Near the first 1P line the response is diffuse: the automatic box grows until it has decayed,
+    and then agrees with an explicitly large box (common practice, no source)."""
+    from tdhf.properties.response_properties import compute_response
+
+    near = 0.796  # just below the first He 1P line at 0.79697 hartree (self-regression value)
+    automatic = compute_response(helium, (1,), (near,), ())
+    (row,) = automatic.polarizabilities
+    assert row.r_max > helium.r_max and not automatic.warnings
+    large = solve_ground_state(System.from_input("He"), GridSettings(r_max=150.0), ScfSettings())
+    (reference,) = compute_response(large, (1,), (near,), ()).polarizabilities
+    assert row.coupled == pytest.approx(reference.coupled, rel=1e-9)
+
+
+def test_fixed_small_box_near_a_resonance_is_reported(helium):
+    from tdhf.properties.response_properties import compute_response
+
+    small = solve_ground_state(System.from_input("He"), GridSettings(r_max=30.0), ScfSettings())
+    results = compute_response(small, (1,), (0.796,), ())
+    assert any(note.startswith("grid.r_max: the dipole response at 0.796 hartree has not decayed") for note in results.warnings)
