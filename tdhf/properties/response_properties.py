@@ -25,7 +25,7 @@ from __future__ import annotations
 
 import logging
 import math
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from typing import Sequence
 
 import numpy as np
@@ -150,29 +150,67 @@ def compute_response(
     re-solved in a larger box when the first-order orbitals at a real frequency reach the wall.
     With ``coupled=False`` the "coupled" columns also hold the uncoupled values.
     """
-    rows: dict[str, list] = {key: [] for key in ("alpha", "beta", "gamma", "sums", "excitations", "distribution")}
-    notes: list[str] = []
-    rejected: list[str] = []
+    collected = _Collected()
     for L in multipoles:
-        _one_multipole(ground_state, L, frequencies, imaginary_frequencies, coupled, broadening,
-                       excitation_count, rows, notes, rejected)
+        _one_multipole(ground_state, L, frequencies, imaginary_frequencies, coupled, broadening, excitation_count,
+                       collected)
     return ResponseResults(
-        polarizabilities=tuple(rows["alpha"]),
-        shielding=tuple(rows["beta"]),
-        quadrupole_shielding=tuple(rows["gamma"]),
-        sum_rules=tuple(rows["sums"]),
-        excitations=tuple(rows["excitations"]),
-        strength_distribution=tuple(rows["distribution"]),
-        warnings=tuple(notes),
-        rejected=tuple(rejected),
+        polarizabilities=tuple(collected.polarizabilities),
+        shielding=tuple(collected.shielding),
+        quadrupole_shielding=tuple(collected.quadrupole_shielding),
+        sum_rules=tuple(collected.sum_rules),
+        excitations=tuple(collected.excitations),
+        strength_distribution=tuple(collected.strength_distribution),
+        warnings=tuple(collected.warnings),
+        rejected=tuple(collected.rejected),
     )
 
 
 _NAMES = {1: "dipole", 2: "quadrupole", 3: "octupole"}
 
 
+@dataclass
+class _Collected:
+    """Rows gathered over the multipoles (mutable while computing; frozen into ResponseResults)."""
+
+    polarizabilities: list[Polarizability] = field(default_factory=list)
+    shielding: list[DipoleShielding] = field(default_factory=list)
+    quadrupole_shielding: list[QuadrupoleShielding] = field(default_factory=list)
+    sum_rules: list[SumRule] = field(default_factory=list)
+    excitations: list[Excitation] = field(default_factory=list)
+    strength_distribution: list[StrengthDistribution] = field(default_factory=list)
+    warnings: list[str] = field(default_factory=list)
+    rejected: list[str] = field(default_factory=list)
+
+
+@dataclass(frozen=True)
+class _Spectrum:
+    """The route-1 spectrum of one solver and the limits it sets on real frequencies."""
+
+    eigen: tuple[np.ndarray, np.ndarray]
+    excitations: tuple[Excitation, ...]
+    first: float  # lowest excitation or the ionization threshold, whichever is lower (hartree)
+    first_label: str
+    first_uncoupled: float  # lowest pole of the uncoupled response (hartree)
+
+
 def _solver(state: GroundState, L: int) -> ResponseSolver:
     return ResponseSolver(state.grid, state.system.Z, state.shells, state.orbital_energies, L)
+
+
+def _spectrum(solver: ResponseSolver, name: str, coupled: bool, count: int) -> _Spectrum:
+    eigen = rpa_eigen_excitations(solver, coupled=coupled)
+    excitations = lowest_excitations(solver, count=count, coupled=coupled, eigen=eigen)
+    # Above the ionization threshold the spectrum is continuous: no real alpha there either.
+    threshold = -float(solver.orbital_energies.max())
+    first = min(excitations[0].energy if excitations else math.inf, threshold)
+    label = f"first {name} excitation" if first < threshold else "ionization threshold (onset of the continuum)"
+    first_uncoupled = min(
+        float(values[virtual].min() - solver.orbital_energies[c.shell])
+        for c in solver.channels
+        for values, _, virtual in [solver.spectra[c.l_prime]]
+    )
+    return _Spectrum(eigen, excitations, first, label, first_uncoupled)
 
 
 def _boundary_fraction(solver: ResponseSolver, first_order: FirstOrderOrbitals) -> float:
@@ -182,104 +220,109 @@ def _boundary_fraction(solver: ResponseSolver, first_order: FirstOrderOrbitals) 
     return float(values[:, outer].max() / values.max()) if outer.any() else 0.0
 
 
-def _one_multipole(state, L, frequencies, imaginary_frequencies, coupled, broadening, count, rows, notes, rejected):
+def _adequate_box(state: GroundState, solver: ResponseSolver, name: str, omega: float, coupled: bool,
+                  notes: list[str]) -> tuple[GroundState, ResponseSolver]:
+    """Enlarge an automatic box (re-solving the ground state) until the response at omega has decayed.
+
+    A box the user fixed (``grid.r_max``) is kept, with a note if it is too small.
+    """
+    automatic = state.grid_settings.r_max is None
+    for _ in range(3):
+        fraction = _boundary_fraction(solver, solver.solve(omega, coupled))
+        if fraction <= BOUNDARY_FRACTION:
+            break
+        if not automatic:
+            notes.append(
+                f"grid.r_max: the {name} response at {omega:g} hartree has not decayed at the wall"
+                f" (|rho| reaches {fraction:.1e} of its maximum beyond 0.75 R); increase r_max or leave it out"
+            )
+            break
+        bigger = replace(state.grid_settings, r_max=1.5 * state.r_max)
+        logger.info("%s response at %g: box enlarged to %.0f bohr", name, omega, bigger.r_max)
+        state = solve_ground_state(state.system, bigger, state.scf_settings)
+        solver = _solver(state, solver.multipole)
+    return state, solver
+
+
+def _one_multipole(state, L, frequencies, imaginary_frequencies, coupled, broadening, count, out: _Collected):
     name = _NAMES.get(L, f"2^{L}-pole")
     solver = _solver(state, L)
-    eigen = rpa_eigen_excitations(solver, coupled=coupled)
-    excitations = lowest_excitations(solver, count=count, coupled=coupled, eigen=eigen)
-    rows["excitations"].extend(excitations)
-    if not excitations:
-        notes.append(
-            f"response: {state.system.name} has no bound {name} excitation below the ionization threshold"
-            f" ({-float(solver.orbital_energies.max()):.6f} hartree); the {name} spectrum is a continuum there"
-        )
-    # Above the ionization threshold the spectrum is continuous: no real alpha either.
-    threshold = -float(solver.orbital_energies.max())
-    first = min(excitations[0].energy if excitations else math.inf, threshold)
-    first_label = f"first {name} excitation" if first < threshold else "ionization threshold (onset of the continuum)"
-    first_uncoupled = min(
-        float(values[virtual].min() - solver.orbital_energies[c.shell])
-        for c in solver.channels
-        for values, _, virtual in [solver.spectra[c.l_prime]]
-    )
-
+    spectrum = _spectrum(solver, name, coupled, count)
     allowed = []
     for i, omega in enumerate(frequencies):
-        if broadening == 0.0 and omega >= first * (1.0 - RESONANCE_MARGIN):
-            rejected.append(
-                f"response.frequencies[{i}]: {omega:g} hartree is at or above the {first_label}"
-                f" ({first:.6f} hartree); a real alpha exists only below it: use imaginary_frequencies"
+        if broadening == 0.0 and omega >= spectrum.first * (1.0 - RESONANCE_MARGIN):
+            out.rejected.append(
+                f"response.frequencies[{i}]: {omega:g} hartree is at or above the {spectrum.first_label}"
+                f" ({spectrum.first:.6f} hartree); a real alpha exists only below it: use imaginary_frequencies"
                 " or a broadening"
             )
-            continue
-        allowed.append(float(omega))
-
-    # Box check at the real frequency closest to resonance; enlarge (automatic boxes only).
-    automatic = state.grid_settings.r_max is None
+        else:
+            allowed.append(float(omega))
     if allowed and broadening == 0.0:
-        closest = max(allowed)
-        for _ in range(3):
-            fraction = _boundary_fraction(solver, solver.solve(closest, coupled))
-            if fraction <= BOUNDARY_FRACTION:
-                break
-            if not automatic:
-                notes.append(
-                    f"grid.r_max: the {name} response at {closest:g} hartree has not decayed at the wall"
-                    f" (|rho| reaches {fraction:.1e} of its maximum beyond 0.75 R); increase r_max or leave it out"
-                )
-                break
-            bigger = replace(state.grid_settings, r_max=1.5 * state.r_max)
-            logger.info("%s response at %g: box enlarged to %.0f bohr", name, closest, bigger.r_max)
-            state = solve_ground_state(state.system, bigger, state.scf_settings)
-            solver = _solver(state, L)
-
-    electrons = state.system.electrons
-    for omega, imaginary in [(w, False) for w in allowed] + [(float(nu), True) for nu in imaginary_frequencies]:
-        argument = complex(omega, broadening) if not imaginary and broadening else (1j * omega if imaginary else omega)
-        coupled_solution = solver.solve(argument, coupled)
-        uncoupled_solution = solver.solve(argument, False)
-        alpha = complex(solver.polarizability(coupled_solution))
-        alpha_uncoupled = complex(solver.polarizability(uncoupled_solution))
-        uncoupled_valid = imaginary or broadening > 0.0 or omega < first_uncoupled * (1.0 - RESONANCE_MARGIN)
-        converged = coupled_solution.residual <= COUPLING_RESIDUAL
-        if not converged:
-            notes.append(
-                f"response: coupled {name} solve at {omega:g} hartree{' (imaginary)' if imaginary else ''} stopped"
-                f" at relative residual {coupled_solution.residual:.1e} after {coupled_solution.krylov_iterations}"
-                " Krylov steps (GMRES); the value is not converged"
-            )
-        rows["alpha"].append(
-            Polarizability(
-                multipole=L,
-                frequency=omega,
-                imaginary=imaginary,
-                coupled=alpha.real,
-                uncoupled=alpha_uncoupled.real if uncoupled_valid else None,
-                broadening=broadening if not imaginary else 0.0,
-                coupled_imaginary_part=alpha.imag if broadening and not imaginary else 0.0,
-                uncoupled_imaginary_part=alpha_uncoupled.imag if broadening and not imaginary else 0.0,
-                converged=converged,
-                krylov_iterations=coupled_solution.krylov_iterations,
-                r_max=state.r_max,
-                velocity_form=(
-                    complex(solver.velocity_polarizability(argument, coupled)).real if L == 1 and not broadening else None
-                ),
-            )
+        # The real frequency closest to resonance has the most diffuse response.
+        state, enlarged = _adequate_box(state, solver, name, max(allowed), coupled, out.warnings)
+        if enlarged is not solver:
+            solver = enlarged
+            spectrum = _spectrum(solver, name, coupled, count)  # every number from the same box
+    out.excitations.extend(spectrum.excitations)
+    if not spectrum.excitations:
+        out.warnings.append(
+            f"response: {state.system.name} has no bound {name} excitation below the ionization threshold"
+            f" ({spectrum.first:.6f} hartree); the {name} spectrum is a continuum there"
         )
-        squared = -omega**2 if imaginary else omega**2
-        if L == 1 and not broadening:
-            direct = -complex(solver.expectation(coupled_solution, state.grid.r**-2.0)).real
-            identity = (electrons + squared * alpha.real) / state.system.Z
-            rows["beta"].append(DipoleShielding(omega, imaginary, direct, identity, direct - identity))
-        if L == 2 and not broadening:
-            gamma = -complex(solver.expectation(coupled_solution, state.grid.r**-3.0)).real
-            gamma_uncoupled = -complex(solver.expectation(uncoupled_solution, state.grid.r**-3.0)).real
-            rows["gamma"].append(QuadrupoleShielding(omega, imaginary, gamma, gamma_uncoupled if uncoupled_valid else None))
-
+    for omega, imaginary in [(w, False) for w in allowed] + [(float(nu), True) for nu in imaginary_frequencies]:
+        _frequency_rows(state, solver, name, omega, imaginary, coupled, broadening, spectrum, out)
     moments_coupled = (solver.energy_weighted_sum(coupled),) + solver.cauchy_moments(coupled)
     moments_uncoupled = (solver.energy_weighted_sum(False),) + solver.cauchy_moments(False)
     shells = state.shells
     exact_trk = float(L * shells.occupations @ (shells.orbitals**2 @ state.grid.r ** (2 * L - 2)))
-    rows["distribution"].append(strength_distribution(solver, eigen, float(moments_coupled[0])))
+    out.strength_distribution.append(strength_distribution(solver, spectrum.eigen, float(moments_coupled[0])))
     for k, value, uncoupled in zip((0, -2, -4, -6), moments_coupled, moments_uncoupled):
-        rows["sums"].append(SumRule(L, k, float(value), float(uncoupled), exact_trk if k == 0 else None))
+        out.sum_rules.append(SumRule(L, k, float(value), float(uncoupled), exact_trk if k == 0 else None))
+
+
+def _frequency_rows(state, solver, name, omega, imaginary, coupled, broadening, spectrum: _Spectrum, out: _Collected):
+    """alpha (and beta for L = 1, gamma_inf for L = 2) at one real, imaginary or broadened frequency."""
+    L = solver.multipole
+    argument = complex(omega, broadening) if not imaginary and broadening else (1j * omega if imaginary else omega)
+    coupled_solution = solver.solve(argument, coupled)
+    uncoupled_solution = solver.solve(argument, False)
+    alpha = complex(solver.polarizability(coupled_solution))
+    alpha_uncoupled = complex(solver.polarizability(uncoupled_solution))
+    uncoupled_valid = imaginary or broadening > 0.0 or omega < spectrum.first_uncoupled * (1.0 - RESONANCE_MARGIN)
+    converged = coupled_solution.residual <= COUPLING_RESIDUAL
+    if not converged:
+        out.warnings.append(
+            f"response: coupled {name} solve at {omega:g} hartree{' (imaginary)' if imaginary else ''} stopped"
+            f" at relative residual {coupled_solution.residual:.1e} after {coupled_solution.krylov_iterations}"
+            " Krylov steps (GMRES); the value is not converged"
+        )
+    broadened = broadening > 0.0 and not imaginary
+    out.polarizabilities.append(
+        Polarizability(
+            multipole=L,
+            frequency=omega,
+            imaginary=imaginary,
+            coupled=alpha.real,
+            uncoupled=alpha_uncoupled.real if uncoupled_valid else None,
+            broadening=broadening if broadened else 0.0,
+            coupled_imaginary_part=alpha.imag if broadened else 0.0,
+            uncoupled_imaginary_part=alpha_uncoupled.imag if broadened else 0.0,
+            converged=converged,
+            krylov_iterations=coupled_solution.krylov_iterations,
+            r_max=state.r_max,
+            velocity_form=complex(solver.velocity_polarizability(argument, coupled)).real if L == 1 and not broadened else None,
+        )
+    )
+    if broadened:
+        return
+    if L == 1:
+        direct = -complex(solver.expectation(coupled_solution, state.grid.r**-2.0)).real
+        identity = (state.system.electrons + (-omega**2 if imaginary else omega**2) * alpha.real) / state.system.Z
+        out.shielding.append(DipoleShielding(omega, imaginary, direct, identity, direct - identity))
+    if L == 2:
+        gamma = -complex(solver.expectation(coupled_solution, state.grid.r**-3.0)).real
+        gamma_uncoupled = -complex(solver.expectation(uncoupled_solution, state.grid.r**-3.0)).real
+        out.quadrupole_shielding.append(
+            QuadrupoleShielding(omega, imaginary, gamma, gamma_uncoupled if uncoupled_valid else None)
+        )
