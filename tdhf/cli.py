@@ -1,4 +1,5 @@
-"""Command line: ``tdhf run DECK.toml`` and ``tdhf atom ELEMENT`` (argument parsing only).
+"""Command line: ``tdhf run DECK.toml``, ``tdhf atom ELEMENT``, ``tdhf pairs A B ...`` and
+``tdhf series DECK... --out DIR`` (argument parsing only).
 
 Results (tables) go to stdout; warnings, progress and the log go to stderr.  ``--quiet`` prints
 nothing but errors; ``--verbose`` adds the effective options, progress and one line per SCF
@@ -31,7 +32,8 @@ from tdhf.driver import certify, program_info, result_to_json, run_deck
 from tdhf.errors import ConvergenceError, InputError
 from tdhf.properties.dispersion import write_polarizability_csv
 from tdhf.report.serialize import write_json
-from tdhf.report.terminal import print_report
+from tdhf.report.terminal import SERIES_COLUMNS, print_report, rows_table
+from tdhf.series import run_series
 
 __all__ = ["main", "build_parser", "EXIT_OK", "EXIT_BUG", "EXIT_INPUT", "EXIT_CONVERGENCE"]
 
@@ -81,6 +83,14 @@ def build_parser() -> argparse.ArgumentParser:
     pairs.add_argument("systems", metavar="SYSTEM", nargs="+", help='systems such as "He", "Na+", "Cl-"')
     pairs.add_argument("--points", type=int, help="imaginary-frequency quadrature points (default 24)")
     pairs.add_argument("--tight", action="store_true", help="use the tight grid preset")
+    series = commands.add_parser("series", help="run many decks, one JSON file each (resumable)",
+                                 description="Run a series of decks; failures stay with their deck.")
+    series.add_argument("decks", metavar="DECK.toml", type=Path, nargs="+")
+    series.add_argument("--out", metavar="DIR", type=Path, required=True, help="directory for the JSON results")
+    series.add_argument("--resume", action="store_true", help="skip decks whose result file already exists")
+    series_talk = series.add_mutually_exclusive_group()
+    series_talk.add_argument("-v", "--verbose", action="store_true", help="show progress on stderr")
+    series_talk.add_argument("-q", "--quiet", action="store_true", help="print nothing but errors")
     for command in (run, pairs):
         command.add_argument("--csv", metavar="ALPHA.csv", type=Path,
                              help="also write alpha_L(i w) on the dispersion quadrature grid as CSV")
@@ -213,7 +223,29 @@ def main(argv: Sequence[str] | None = None, stdout: TextIO | None = None, stderr
             return EXIT_BUG
 
 
+def _stdout_console(stdout: TextIO) -> Console:
+    """The results console: the terminal's width, or a fixed width for files and pipes."""
+    console = Console(file=stdout)
+    return console if console.is_terminal else Console(file=stdout, width=FILE_WIDTH)
+
+
+def _execute_series(args: argparse.Namespace, stdout: TextIO, err_console: Console) -> int:
+    with _progress(err_console, live=err_console.is_terminal and not (args.quiet or args.verbose)) as progress:
+        entries = run_series(args.decks, args.out, resume=args.resume, progress=progress)
+    if not args.quiet:
+        _stdout_console(stdout).print(rows_table("Series", entries, SERIES_COLUMNS))
+    for entry in entries:
+        if entry.status in ("input error", "not converged", "rejected"):
+            logger.error("%s: %s", entry.deck, entry.message)
+    statuses = {entry.status for entry in entries}
+    if statuses & {"input error", "rejected"}:
+        return EXIT_INPUT
+    return EXIT_CONVERGENCE if "not converged" in statuses else EXIT_OK
+
+
 def _execute(args: argparse.Namespace, stdout: TextIO, err_console: Console) -> int:
+    if args.command == "series":
+        return _execute_series(args, stdout, err_console)
     deck = _deck_from_arguments(args)
     json_path = _check_output(args.json)
     with _progress(err_console, live=err_console.is_terminal and not (args.quiet or args.verbose)) as progress:
@@ -228,10 +260,7 @@ def _execute(args: argparse.Namespace, stdout: TextIO, err_console: Console) -> 
             raise InputError("--csv: there are no alpha(i w) tables without a [dispersion] table in the deck")
         write_polarizability_csv(csv_path, result.polarizability_tables)
     if not args.quiet:
-        console = Console(file=stdout)
-        if not console.is_terminal:
-            console = Console(file=stdout, width=FILE_WIDTH)
-        print_report(console, result)
+        print_report(_stdout_console(stdout), result)
     if result.rejected:
         saved = f"; the other results were written to {json_path}" if json_path is not None else ""
         logger.error("%s%s", "; ".join(result.rejected), saved)

@@ -22,7 +22,7 @@ from tdhf.driver import RunResult
 from tdhf.ground_state import GroundState
 
 __all__ = ["print_report", "header_line", "ground_state_table", "orbital_table", "rows_table",
-           "Column", "ROW_TABLES"]
+           "Column", "ROW_TABLES", "SERIES_COLUMNS"]
 
 MISSING = "-"
 
@@ -146,6 +146,16 @@ ROW_TABLES: dict[str, tuple[str, tuple[Column, ...]]] = {
         Column("C10 error estimate\n(hartree bohr^10)", _field("C10_error"), ".1e"),
     )),
 }
+
+
+#: Columns of the ``tdhf series`` summary (rows are tdhf.series.SeriesEntry).
+SERIES_COLUMNS = (
+    Column("deck", _field("deck")),
+    Column("system", _field("system")),
+    Column("status", _field("status")),
+    Column("total energy\n(hartree)", _field("total_energy"), ".10f"),
+    Column("result file", _field("output")),
+)
 
 
 def header_line(result: RunResult) -> Text:
