@@ -14,7 +14,16 @@ import pytest
 from sympy.physics.wigner import wigner_3j as sympy_3j
 from sympy.physics.wigner import wigner_6j as sympy_6j
 
-from tdhf.angular import exchange_coefficient, reduced_c, wigner_3j_zero, wigner_6j
+from tdhf.angular import (
+    c_matrix_element,
+    exchange_coefficient,
+    multipole_weight,
+    reduced_c,
+    response_exchange_factors,
+    wigner_3j,
+    wigner_3j_zero,
+    wigner_6j,
+)
 
 #: Largest l in the exhaustive 3j comparison (covers every k = 0..2 l_max of atoms through l = 4).
 L_MAX_3J = 10
@@ -106,3 +115,54 @@ def test_exchange_coefficient_sum_rule(l_a, l_b):
     # From the 3j orthogonality above: sum_k (2k+1) * 1/2 (l_a k l_b; 000)^2 = 1/2.
     total = sum((2 * k + 1) * exchange_coefficient(l_a, k, l_b) for k in range(l_a + l_b + 1))
     assert total == pytest.approx(0.5, abs=1e-14)
+
+
+def test_general_wigner_3j_matches_sympy():
+    """sympy.physics.wigner (general-purpose reference library), every argument set with j <= 3."""
+    for j1, j2, j3 in itertools.product(range(4), repeat=3):
+        for m1 in range(-j1, j1 + 1):
+            for m2 in range(-j2, j2 + 1):
+                expected = float(sympy_3j(j1, j2, j3, m1, m2, -m1 - m2))
+                assert wigner_3j(j1, j2, j3, m1, m2, -m1 - m2) == pytest.approx(expected, abs=1e-14)
+
+
+@pytest.mark.parametrize("L, l, lp", [(1, 0, 1), (1, 1, 2), (2, 1, 1), (3, 2, 3), (2, 3, 1)])
+def test_multipole_weight_is_the_m_sum_of_squared_matrix_elements(L, l, lp):
+    """Identity: sum_m <l' m|C_L0|l m>^2 = (2l+1)(2l'+1)(l L l';000)^2/(2L+1) (Wigner-Eckart)."""
+    total = sum(c_matrix_element(lp, m, L, 0, l, m) ** 2 for m in range(-min(l, lp), min(l, lp) + 1))
+    assert multipole_weight(L, l, lp) == pytest.approx(total, rel=1e-13)
+
+
+def _exchange_sum_at(L, l_a, l_t, l_b, l_s, k, m_a):
+    """The m_b, q sums of the first-order exchange for one target m_a (as in the solver's derivation)."""
+    s1 = s2 = 0.0
+    for m_b in range(-min(l_b, l_s), min(l_b, l_s) + 1):
+        q = m_a - m_b
+        if abs(q) > k:
+            continue
+        source = c_matrix_element(l_s, m_b, L, 0, l_b, m_b)
+        s1 += (-1) ** q * c_matrix_element(l_b, m_b, k, -q, l_a, m_a) * c_matrix_element(l_t, m_a, k, q, l_s, m_b) * source
+        s2 += (-1) ** q * c_matrix_element(l_s, m_b, k, -q, l_a, m_a) * c_matrix_element(l_t, m_a, k, q, l_b, m_b) * source
+    return s1, s2
+
+
+@pytest.mark.parametrize("L", [1, 2, 3])
+def test_response_exchange_factors_do_not_depend_on_m(L):
+    """Wigner-Eckart: for every target m_a the exchange sums equal factor x <l_t m_a|C_L0|l_a m_a>,
+    so the radial first-order functions are m-independent (exact identity)."""
+    checked = 0
+    for l_a, l_b in itertools.product(range(3), repeat=2):
+        for l_t in range(abs(l_a - L), l_a + L + 1, 2):
+            for l_s in range(abs(l_b - L), l_b + L + 1, 2):
+                factors = {k: (s1, s2) for k, s1, s2 in response_exchange_factors(L, l_a, l_t, l_b, l_s)}
+                for k in range(l_a + l_b + l_t + l_s + 1):
+                    for m_a in range(-min(l_a, l_t), min(l_a, l_t) + 1):
+                        target = c_matrix_element(l_t, m_a, L, 0, l_a, m_a)
+                        if target == 0.0:
+                            continue
+                        s1, s2 = _exchange_sum_at(L, l_a, l_t, l_b, l_s, k, m_a)
+                        e1, e2 = factors.get(k, (0.0, 0.0))
+                        assert s1 == pytest.approx(e1 * target, abs=1e-12)
+                        assert s2 == pytest.approx(e2 * target, abs=1e-12)
+                        checked += 1
+    assert checked > 100
