@@ -205,7 +205,7 @@ def _spectrum(solver: ResponseSolver, name: str, coupled: bool, count: int) -> _
     eigen = rpa_eigen_excitations(solver, coupled=coupled)
     excitations = lowest_excitations(solver, count=count, coupled=coupled, eigen=eigen)
     # Above the ionization threshold the spectrum is continuous: no real alpha there either.
-    threshold = -float(solver.orbital_energies.max())
+    threshold = solver.ionization_threshold
     first = min(excitations[0].energy if excitations else math.inf, threshold)
     label = f"first {name} excitation" if first < threshold else "ionization threshold (onset of the continuum)"
     first_uncoupled = min(

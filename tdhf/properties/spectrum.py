@@ -204,7 +204,7 @@ def lowest_excitations(
     discretizes a continuum and its pseudo-states depend on the box radius.
     ``eigen`` reuses a route-1 result (energies, strengths) instead of recomputing it.
     """
-    ionization = -float(solver.orbital_energies.max())
+    ionization = solver.ionization_threshold
     energies, strengths = eigen if eigen is not None else rpa_eigen_excitations(solver, coupled=coupled)
     found = []
     visible = [(e, f) for e, f in zip(energies, strengths) if f >= 1e-10 and 0.0 < e < ionization]
@@ -249,7 +249,7 @@ def strength_distribution(
 ) -> StrengthDistribution:
     """Split S(0) = ``total`` into bound states, discretized continuum below the cutoff, and the rest."""
     energies, strengths = eigen
-    threshold = -float(solver.orbital_energies.max())
+    threshold = solver.ionization_threshold
     bound = energies < threshold
     discrete, continuum = float(strengths[bound].sum()), float(strengths[~bound].sum())
     return StrengthDistribution(

@@ -128,6 +128,12 @@ class ResponseSolver:
             if (int(l_a) + L + l_t) % 2 == 0
         )
         self.kernels = coulomb_kernels(grid, 2 * l_max + L)
+        # Channels grouped by final symmetry l': the rows and the orbital energies of their holes.
+        self._groups = {
+            l_t: (rows, self.orbital_energies[[self.channels[t].shell for t in rows]])
+            for l_t in sorted({c.l_prime for c in self.channels})
+            for rows in [[t for t, c in enumerate(self.channels) if c.l_prime == l_t]]
+        }
         self._build_spectra(nuclear_charge)
         self._build_coupling()
 
@@ -137,7 +143,7 @@ class ResponseSolver:
         hartree = direct_potential(self.kernels, self.shells)
         self.spectra: dict[int, tuple[np.ndarray, np.ndarray, np.ndarray]] = {}
         overlap_with_occupied = {}
-        for l_t in sorted({c.l_prime for c in self.channels}):
+        for l_t in self._groups:
             fock = one_electron_operator(self.grid, nuclear_charge, l_t) - exchange_operator(self.kernels, self.shells, l_t)
             fock[np.diag_indices(self.grid.size)] += hartree
             values, vectors = scipy.linalg.eigh(fock)
@@ -155,19 +161,20 @@ class ResponseSolver:
         r"""Angular factors as dense tensors over (k, target channel, source channel).
 
         ``_first[t, s]`` is :math:`\sum_k s_1 Y^k[P_a P_b]/r` at the nodes (ground-state
-        exchange potentials times angular factors); ``_second[k, t, s]`` holds :math:`s_2`.
+        exchange potentials times angular factors); the second kind, with factors :math:`s_2`, is stored
+        per k as the (a, s) pairs it needs and a scatter matrix onto target channels.
         """
         L = self.multipole
         p = self.shells.orbitals
         count = len(self.channels)
         k_count = self.kernels.shape[0]
         self._first = np.zeros((count, count, self.grid.size))
-        self._second = np.zeros((k_count, count, count))
+        second = np.zeros((k_count, count, count))
         pair_potentials: dict[tuple[int, int, int], np.ndarray] = {}
         for t, target in enumerate(self.channels):
             for s, source in enumerate(self.channels):
                 for k, s1, s2 in response_exchange_factors(L, target.l, target.l_prime, source.l, source.l_prime):
-                    self._second[k, t, s] = s2
+                    second[k, t, s] = s2
                     if s1:
                         key = (min(target.shell, source.shell), max(target.shell, source.shell), k)
                         if key not in pair_potentials:
@@ -179,17 +186,22 @@ class ResponseSolver:
         # Y^k[P_a rho_s] is needed, and the matrix scattering them onto target channels.
         self._second_terms = []
         for k in range(k_count):
-            pairs = sorted({(self._target_shell[t], s) for t, s in zip(*np.nonzero(self._second[k]))})
+            pairs = sorted({(self._target_shell[t], s) for t, s in zip(*np.nonzero(second[k]))})
             if not pairs:
                 continue
             index = {pair: r for r, pair in enumerate(pairs)}
             scatter = np.zeros((count, len(pairs)))
-            for t, s in zip(*np.nonzero(self._second[k])):
-                scatter[t, index[(self._target_shell[t], s)]] = self._second[k, t, s]
+            for t, s in zip(*np.nonzero(second[k])):
+                scatter[t, index[(self._target_shell[t], s)]] = second[k, t, s]
             shells_of_rows = np.array([a for a, _ in pairs])
             sources_of_rows = np.array([s for _, s in pairs])
             source_orbitals = p[self._target_shell[sources_of_rows]]  # P_b of each row's source channel
             self._second_terms.append((k, shells_of_rows, sources_of_rows, scatter, source_orbitals))
+
+    @property
+    def ionization_threshold(self) -> float:
+        """-epsilon_HOMO in hartree: the onset of the (box-discretized) continuum."""
+        return -float(self.orbital_energies.max())
 
     # ----------------------------------------------------------------- operators
     def perturbation(self, radial: np.ndarray | None = None) -> np.ndarray:
@@ -201,10 +213,9 @@ class ResponseSolver:
         """Apply :math:`(F_{l'} - \\varepsilon_a - s\\omega)^{-1} Q_{l'}` to each channel row of ``rhs``."""
         out = np.empty(rhs.shape, dtype=np.result_type(rhs, frequency))
         for l_t, (values, vectors, virtual) in self.spectra.items():
-            rows = [t for t, c in enumerate(self.channels) if c.l_prime == l_t]
+            rows, hole_energies = self._groups[l_t]
             projected = rhs[rows] @ vectors
-            shifts = np.array([self.orbital_energies[self.channels[t].shell] for t in rows]) + sign * frequency
-            denominators = values[None, :] - shifts[:, None]
+            denominators = values[None, :] - (hole_energies + sign * frequency)[:, None]
             projected = np.where(virtual[None, :], projected / np.where(virtual, denominators, 1.0), 0.0)
             out[rows] = projected @ vectors.T
         return out
@@ -324,7 +335,7 @@ class ResponseSolver:
         """Remove the occupied components of symmetry l' from each channel row."""
         out = np.array(rhs, dtype=float, copy=True)
         for l_t, (_, vectors, virtual) in self.spectra.items():
-            rows = [t for t, c in enumerate(self.channels) if c.l_prime == l_t]
+            rows, _ = self._groups[l_t]
             occupied = vectors[:, ~virtual]
             out[rows] -= (out[rows] @ occupied) @ occupied.T
         return out
@@ -333,10 +344,9 @@ class ResponseSolver:
         r"""Apply :math:`(F_{l'} - \varepsilon_a) Q_{l'}` to each channel row."""
         out = np.empty_like(vectors)
         for l_t, (values, eigenvectors, virtual) in self.spectra.items():
-            rows = [t for t, c in enumerate(self.channels) if c.l_prime == l_t]
-            shifts = np.array([self.orbital_energies[self.channels[t].shell] for t in rows])
+            rows, hole_energies = self._groups[l_t]
             projected = (vectors[rows] @ eigenvectors) * np.where(virtual, 1.0, 0.0)[None, :]
-            out[rows] = (projected * (values[None, :] - shifts[:, None])) @ eigenvectors.T
+            out[rows] = (projected * (values[None, :] - hole_energies[:, None])) @ eigenvectors.T
         return out
 
     def weighted_dot(self, left: np.ndarray, right: np.ndarray) -> float:
