@@ -5,7 +5,12 @@ path such as ``atom.element`` where there is one) and the fix.  The CLI maps the
 distinct exit codes:
 
 * :class:`InputError` and subclasses: the request itself is wrong (exit code 2);
-* :class:`ConvergenceError`: the request was valid but a solver did not converge (exit code 3).
+* :class:`ConvergenceError`: the request was valid but a solver did not converge (exit code 3);
+* :class:`OutputError`: the results were computed but a result file could not be written
+  (exit code 4); the message names the file, and the results are still printed.
+
+Exit codes of the command line (``tdhf.cli``): 0 success, 1 internal error (a bug), 2 input,
+3 not converged, 4 output failure, 130 interrupted.
 """
 
 from __future__ import annotations
@@ -20,6 +25,7 @@ __all__ = [
     "GridError",
     "FrequencyError",
     "ConvergenceError",
+    "OutputError",
 ]
 
 
@@ -57,3 +63,7 @@ class FrequencyError(InputError):
 
 class ConvergenceError(TdhfError, RuntimeError):
     """An iterative solver (SCF, response coupling) did not reach its tolerance."""
+
+
+class OutputError(TdhfError, OSError):
+    """A result file cannot be written (missing folder, not writable, not a regular file, disk full)."""
