@@ -28,7 +28,8 @@ import numpy as np
 import pytest
 
 from tdhf.deck import parse_deck
-from tdhf.driver import result_to_json, run_deck
+from tdhf.driver import run_deck
+from tdhf.report.json_result import result_to_json
 from tdhf.errors import ConvergenceError, InputError
 from tdhf.ground_state import GroundState, solve_ground_state
 from tdhf.properties import dispersion
