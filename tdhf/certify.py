@@ -14,7 +14,11 @@ reruns the deck once per approximation and takes, for each number, the largest c
     for C6, C8, C10: the imaginary-frequency quadrature 1.5 times larger, combined with the
     companion-rule error estimate the result already carries.
 
-The uncertainty of a number is :math:`\\max_v |x_v - x|` over the variations; a number missing
+The largest change :math:`\\max_v |x_v - x|` over the variations is the number's ``difference``
+and twice it (:data:`UNCERTAINTY_FACTOR`) its uncertainty: if each variation at least halves the
+error of its approximation (true of the exponentially converging box, grid and tolerances here;
+measured: the 1.5x box leaves 2e-4 of a near-resonance box error), the true error is below the
+uncertainty.  A number missing
 from a variation (e.g. a line that no longer fits) or not converged in it is reported as not
 converged.  :data:`CERTIFICATION_TOLERANCE` is the relative change above which a warning names the
 number.  Cost: three to four extra runs (measured 2-4x the run time).
@@ -32,8 +36,10 @@ from tdhf.driver import Certification, RunResult, run_deck
 from tdhf.properties.dispersion import QUADRATURE_RANGE
 from tdhf.quantities import Quantity, key_of, quantities
 
-__all__ = ["certify", "certified", "variations", "CERTIFICATION_TOLERANCE", "BOX_FACTOR"]
+__all__ = ["certify", "certified", "variations", "CERTIFICATION_TOLERANCE", "BOX_FACTOR", "UNCERTAINTY_FACTOR"]
 
+#: Uncertainty = this factor x the largest change (module docstring).
+UNCERTAINTY_FACTOR = 2.0
 #: Relative change above which a certified number is named in a warning.
 CERTIFICATION_TOLERANCE = 1e-7
 #: The box of the box variation, relative to the largest box of the run.
@@ -114,7 +120,8 @@ def _certify_one(quantity: Quantity, varied: dict[str, dict[tuple, Quantity]], q
     difference = refined - quantity.value
     scale = abs(quantity.value)
     relative = abs(difference) / scale if scale > 0.0 else (0.0 if difference == 0.0 else math.inf)
-    return Certification(quantity.path, quantity.value, refined, difference, relative, approximation, converged)
+    return Certification(quantity.path, quantity.value, refined, difference, relative, approximation, converged,
+                         UNCERTAINTY_FACTOR * abs(difference))
 
 
 def certified(result: RunResult, deck: Deck, progress: Callable[[str], None] | None = None) -> RunResult:

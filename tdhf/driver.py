@@ -70,9 +70,9 @@ class Conventions:
         " + (35/pi) int a2 a2, a_L = alpha_L(i w)"
     )
     uncertainty: str = (
-        "<key>_uncertainty and certification[].difference: the largest change of the number when the grid is"
-        " refined, the box enlarged 1.5x, the SCF/Krylov/eigensolver tolerances tightened 100x and (C_n) the"
-        " quadrature enlarged; null when the run was not certified"
+        "certification[].difference: the largest change of the number when the grid is refined, the box"
+        " enlarged 1.5x, the SCF/Krylov/eigensolver tolerances tightened 100x and (C_n) the quadrature enlarged;"
+        " <key>_uncertainty = 2 |difference| (absolute, same unit); absent when the run was not certified"
     )
 
 
@@ -112,8 +112,10 @@ class Certification:
 
     ``quantity`` is the number's key path in the JSON result, e.g. ``polarizabilities[0].coupled``;
     ``refined`` its value in the variation that moved it most (``approximation``: "grid", "box",
-    "tolerances" or "quadrature"), ``difference`` = refined - value, so ``abs(difference)`` is the
-    number's uncertainty.  ``converged`` is False if the number or a variation did not converge.
+    "tolerances" or "quadrature"), ``difference`` = refined - value.  ``uncertainty`` =
+    :data:`tdhf.certify.UNCERTAINTY_FACTOR` x |difference|: it covers the error of ``value`` when
+    every variation at least halves the error of its approximation.  ``converged`` is False if
+    the number or a variation did not converge.
     """
 
     quantity: str
@@ -123,6 +125,7 @@ class Certification:
     relative_difference: float
     approximation: str = "grid"
     converged: bool = True
+    uncertainty: float = 0.0
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -201,7 +204,7 @@ class RunResult:
 
     def uncertainties(self) -> dict[str, float]:
         """Absolute uncertainty of each certified number by its JSON key path (empty if not certified)."""
-        return {row.quantity: abs(row.difference) for row in self.certification}
+        return {row.quantity: row.uncertainty for row in self.certification}
 
 
 def run_deck(deck: Deck, progress: Progress | None = None) -> RunResult:

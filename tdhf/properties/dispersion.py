@@ -201,6 +201,8 @@ class ImaginaryFrequencyTable:
         Weights w_k in hartree: :math:`\int_0^\infty f\,d\omega \approx \sum_k w_k f(\omega_k)`.
     dipole, quadrupole, octupole : tuple of float, shape (m,)
         :math:`\alpha_1, \alpha_2, \alpha_3` at :math:`i\omega_k` (a.u.); NaN if that response failed.
+    converged : bool
+        False if any of the system's responses failed (its NaN entries).
     """
 
     system: str
@@ -209,6 +211,7 @@ class ImaginaryFrequencyTable:
     dipole: tuple[float, ...]
     quadrupole: tuple[float, ...]
     octupole: tuple[float, ...]
+    converged: bool = True
 
 
 @dataclass(frozen=True)
@@ -479,6 +482,7 @@ def _table(response: _SystemResponse, rules: _Rules) -> ImaginaryFrequencyTable:
         dipole=tuple(float(x) for x in alpha[0]),
         quadrupole=tuple(float(x) for x in alpha[1]),
         octupole=tuple(float(x) for x in alpha[2]),
+        converged=bool(np.all(np.isfinite(alpha))),
     )
 
 

@@ -417,6 +417,7 @@ class StrengthDistribution:
     discrete_sum: float
     continuum_sum: float
     total: float
+    converged: bool = True
 
 
 def strength_distribution(spectrum: Spectrum, total: float) -> StrengthDistribution:
@@ -424,4 +425,4 @@ def strength_distribution(spectrum: Spectrum, total: float) -> StrengthDistribut
     bound = (spectrum.energies < spectrum.threshold) & (spectrum.strengths >= VISIBLE_STRENGTH)
     discrete = float(spectrum.strengths[bound].sum())
     return StrengthDistribution(spectrum.multipole, spectrum.threshold, int(bound.sum()), discrete,
-                                total - discrete, total)
+                                total - discrete, total, spectrum.status.converged)

@@ -193,7 +193,7 @@ ROW_TABLES: dict[str, tuple[str, tuple[Column, ...]]] = {
         Column("quantity", _field("quantity")),
         Column("value", _field("value"), ".12g"),
         Column("varied", _field("refined"), ".12g"),
-        Column("uncertainty", lambda row: abs(_field("difference")(row)), ".1e"),
+        Column("uncertainty", _field("uncertainty"), ".1e"),
         Column("relative", _field("relative_difference"), ".1e"),
         Column("largest from", _field("approximation")),
     )),
