@@ -342,7 +342,7 @@ def test_json_form_has_the_documented_keys(helium_neon):
         ["pair", "C6", "C8", "C10", "C6_error", "C8_error", "C10_error", "converged"])
     assert data["coefficients"][1]["pair"] == ["He", "Ne"]
     assert sorted(data["polarizability_tables"][0]) == sorted(
-        ["system", "frequencies", "weights", "dipole", "quadrupole", "octupole"])
+        ["system", "frequencies", "weights", "dipole", "quadrupole", "octupole", "converged"])
 
 
 def test_driver_runs_a_dispersion_deck():
