@@ -40,6 +40,7 @@ from tdhf.numerics.davidson import rpa_davidson
 from tdhf.numerics.status import EXACT, SolveStatus
 from tdhf.numerics.threads import single_blas_thread
 from tdhf.errors import ConvergenceError
+from tdhf.response.particle_hole import ParticleHoleBasis
 from tdhf.response.solver import ResponseSolver, ResponseTolerances
 
 __all__ = [
@@ -138,44 +139,6 @@ class Spectrum:
         return (float(below[-1]) if below.size else None, float(above[0]) if above.size else None)
 
 
-class _ParticleHoleSpace:
-    """Coordinates on the virtual eigenvectors of each channel, in symmetric form sqrt(w_t) c_t.
-
-    In these coordinates the particle-hole energies D are diagonal, the occupied space is absent
-    by construction, and A, B are symmetric matrices.
-    """
-
-    def __init__(self, solver: ResponseSolver) -> None:
-        self.solver = solver
-        self.blocks = []  # per channel: (virtual eigenvectors (n, m_t), particle-hole energies (m_t,))
-        for channel in solver.channels:
-            values, vectors, virtual = solver.spectra[channel.l_prime]
-            self.blocks.append((vectors[:, virtual], values[virtual] - solver.orbital_energies[channel.shell]))
-        sizes = [gaps.size for _, gaps in self.blocks]
-        self.offsets = np.concatenate(([0], np.cumsum(sizes)))
-        self.scale = np.concatenate([np.full(m, np.sqrt(c.weight)) for m, c in zip(sizes, solver.channels)])
-        self.energies = np.concatenate([gaps for _, gaps in self.blocks])
-
-    @property
-    def size(self) -> int:
-        return int(self.offsets[-1])
-
-    def to_grid(self, coordinates: np.ndarray) -> np.ndarray:
-        """(m, size) symmetric coordinates -> (m, n_channels, n) DVR coefficients of the channel functions."""
-        plain = coordinates / self.scale
-        out = np.empty((coordinates.shape[0], len(self.blocks), self.solver.grid.size))
-        for t, (vectors, _) in enumerate(self.blocks):
-            out[:, t] = plain[:, self.offsets[t]:self.offsets[t + 1]] @ vectors.T
-        return out
-
-    def from_grid(self, functions: np.ndarray) -> np.ndarray:
-        """(m, n_channels, n) DVR coefficients -> (m, size) symmetric coordinates (projection on the virtuals)."""
-        out = np.empty((functions.shape[0], self.size))
-        for t, (vectors, _) in enumerate(self.blocks):
-            out[:, self.offsets[t]:self.offsets[t + 1]] = functions[:, t] @ vectors
-        return out * self.scale
-
-
 @single_blas_thread
 def rpa_spectrum(
     solver: ResponseSolver,
@@ -194,14 +157,14 @@ def rpa_spectrum(
     """
     threshold = solver.ionization_threshold
     limit = threshold if energy_limit is None else float(energy_limit)
-    space = _ParticleHoleSpace(solver)
+    space = ParticleHoleBasis(solver, symmetric=True)
     b = space.from_grid(solver.perturbation()[None])[0]
     if not coupled or not solver.interacting:
         return _uncoupled_spectrum(solver, space, b, limit, minimum_roots)
 
     def both(block: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         functions = space.to_grid(block)
-        c_plus, c_minus = solver.coupling(functions, np.zeros_like(functions))
+        c_plus, c_minus = solver.coupling(functions, None)
         a_block = space.energies * block - space.from_grid(c_plus)
         b_block = -space.from_grid(c_minus)
         return a_block + b_block, a_block - b_block
@@ -212,7 +175,9 @@ def rpa_spectrum(
         tiny = np.abs(denominators) < PRECONDITIONER_FLOOR
         return residual / np.where(tiny, np.copysign(PRECONDITIONER_FLOOR, denominators), denominators)
 
-    roots = max(minimum_roots, 1)
+    # The coupled roots below the limit are about as many as the particle-hole energies below it
+    # (coupling moves them, mostly up): start there, so the iteration rarely has to restart.
+    roots = max(minimum_roots, 1, int(np.count_nonzero(space.energies < limit)) + 1)
     order = np.argsort(space.energies)
     while True:
         wanted = min(roots + EXTRA_ROOTS, space.size)
@@ -234,7 +199,7 @@ def rpa_spectrum(
 PRECONDITIONER_FLOOR = 1e-8
 
 
-def _uncoupled_spectrum(solver: ResponseSolver, space: _ParticleHoleSpace, b: np.ndarray, limit: float,
+def _uncoupled_spectrum(solver: ResponseSolver, space: ParticleHoleBasis, b: np.ndarray, limit: float,
                         minimum_roots: int) -> Spectrum:
     """Particle-hole energies D and f = 2 D b^2 (b in symmetric coordinates)."""
     order = np.argsort(space.energies)
@@ -302,7 +267,7 @@ def rpa_eigen_excitations(solver: ResponseSolver, cutoff: float | None = None, c
             chunk = slice(start, min(start + COUPLING_BATCH, size))
             plus = np.zeros((chunk.stop - chunk.start, n_channels, n))
             plus[np.arange(plus.shape[0]), owners[chunk]] = columns[chunk]
-            c_plus, c_minus = solver.coupling(plus, np.zeros_like(plus))
+            c_plus, c_minus = solver.coupling(plus, None)
             for t, (vectors, _) in enumerate(blocks):
                 rows = slice(offsets[t], offsets[t + 1])
                 a_matrix[rows, chunk] -= (c_plus[:, t, :] @ vectors).T

@@ -298,34 +298,62 @@ class ResponseSolver:
 
     def resolvent(self, rhs: np.ndarray, frequency: complex, sign: int) -> np.ndarray:
         """Apply :math:`(F_{l'} - \\varepsilon_a - s\\omega)^{-1} Q_{l'}` to each channel row of ``rhs``."""
-        out = np.empty(rhs.shape, dtype=np.result_type(rhs, frequency))
+        dtype = np.result_type(rhs, frequency)
+        out = np.empty(rhs.shape, dtype=dtype)
+        # Complex data through real matrix products: the eigenvectors are real, so the real and
+        # imaginary parts are transformed together as one real block (half the work of complex GEMM).
+        parts = np.stack([rhs.real, rhs.imag]) if np.iscomplexobj(rhs) else rhs[None]
         for l_t, (values, vectors, virtual) in self.spectra.items():
             rows, hole_energies = self.channel_groups[l_t]
-            projected = rhs[..., rows, :] @ vectors
+            projected = parts[..., rows, :] @ vectors
+            if projected.shape[0] == 2:
+                projected = projected[0] + 1j * projected[1]
+            else:
+                projected = projected[0]
             denominators = values[None, :] - (hole_energies + sign * frequency)[:, None]
             projected = np.where(virtual[None, :], projected / np.where(virtual, denominators, 1.0), 0.0)
-            out[..., rows, :] = projected @ vectors.T
+            if np.iscomplexobj(projected):
+                back = np.stack([projected.real, projected.imag]) @ vectors.T
+                out[..., rows, :] = back[0] + 1j * back[1]
+            else:
+                out[..., rows, :] = projected @ vectors.T
         return out
 
-    def coupling(self, plus: np.ndarray, minus: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    def coupling(self, plus: np.ndarray, minus: np.ndarray | None) -> tuple[np.ndarray, np.ndarray]:
         r"""Induced-potential terms :math:`-u P_a + X^\pm` of the right-hand sides for (rho+, rho-).
 
-        ``plus`` and ``minus`` have shape (..., n_channels, n): leading axes are a batch.
+        ``plus`` and ``minus`` have shape (..., n_channels, n): leading axes are a batch;
+        ``minus=None`` stands for zero (and skips its exchange products).
         """
-        p_target = self.shells.orbitals[self._target_shell]  # (T, n)
-        density = np.einsum("t,tn,...tn->...n", self._weights, p_target, plus + minus)
-        induced = density @ self.kernels[self.multipole]  # kernels are symmetric
-        direct = -induced[..., None, :] * p_target
+        direct = self._direct(plus if minus is None else plus + minus)
         out_plus = direct + np.einsum("tsn,...sn->...tn", self._first, plus)
-        out_minus = direct + np.einsum("tsn,...sn->...tn", self._first, minus)
-        p = self.shells.orbitals
-        for k, shells_of_rows, sources_of_rows, scatter, source_orbitals in self._second_terms:
-            # Y^k[P_a rho_s]/r for the needed (a, s) pairs: one matrix product per k and sign.
-            pair_plus = (p[shells_of_rows] * plus[..., sources_of_rows, :]) @ self.kernels[k]
-            pair_minus = (p[shells_of_rows] * minus[..., sources_of_rows, :]) @ self.kernels[k]
-            out_plus += scatter @ (pair_minus * source_orbitals)
-            out_minus += scatter @ (pair_plus * source_orbitals)
+        out_minus = direct.copy()
+        if minus is not None:
+            out_plus += self._second_kind(minus)
+            out_minus += np.einsum("tsn,...sn->...tn", self._first, minus)
+        out_minus += self._second_kind(plus)
         return out_plus, out_minus
+
+    def coupling_plus(self, plus: np.ndarray, minus: np.ndarray) -> np.ndarray:
+        """Only the rho+ part of :meth:`coupling` (half the exchange products): c+(rho+, rho-)."""
+        return self._direct(plus + minus) + np.einsum("tsn,...sn->...tn", self._first, plus) + self._second_kind(minus)
+
+    def _direct(self, total: np.ndarray) -> np.ndarray:
+        """-u P_a with u the induced Coulomb potential of rho+ + rho- = ``total``."""
+        p_target = self.shells.orbitals[self._target_shell]  # (T, n)
+        density = np.einsum("t,tn,...tn->...n", self._weights, p_target, total)
+        induced = density @ self.kernels[self.multipole]  # kernels are symmetric
+        return -induced[..., None, :] * p_target
+
+    def _second_kind(self, source: np.ndarray) -> np.ndarray:
+        r"""Exchange terms :math:`\sum_k s_2\,Y^k[P_a \rho_s]/r\,P_b` fed by ``source`` (the other sign's functions)."""
+        p = self.shells.orbitals
+        out = np.zeros(source.shape, dtype=source.dtype)
+        for k, shells_of_rows, sources_of_rows, scatter, source_orbitals in self._second_terms:
+            # Y^k[P_a rho_s]/r for the needed (a, s) pairs: one matrix product per k.
+            pair = (p[shells_of_rows] * source[..., sources_of_rows, :]) @ self.kernels[k]
+            out += scatter @ (pair * source_orbitals)
+        return out
 
     def project(self, rhs: np.ndarray) -> np.ndarray:
         """Remove the occupied components of symmetry l' from each channel row (leading axes: a batch)."""
@@ -352,15 +380,13 @@ class ResponseSolver:
         """
         if not coupled or not self.interacting:
             return self.diagonal(vectors)
-        c_plus, _ = self.coupling(vectors, -vectors)
-        return self.diagonal(vectors) - self.project(c_plus)
+        return self.diagonal(vectors) - self.project(self.coupling_plus(vectors, -vectors))
 
     def apply_sum(self, vectors: np.ndarray, coupled: bool = True) -> np.ndarray:
         """(A + B) v = D v - Q c^+(v, v) for projected channel functions v; D v when uncoupled."""
         if not coupled or not self.interacting:
             return self.diagonal(vectors)
-        c_plus, _ = self.coupling(vectors, vectors)
-        return self.diagonal(vectors) - self.project(c_plus)
+        return self.diagonal(vectors) - self.project(self.coupling_plus(vectors, vectors))
 
     def weighted_dot(self, left: np.ndarray, right: np.ndarray) -> complex:
         r""":math:`\sum_t w_t \langle l_t | r_t \rangle` over channels (unconjugated)."""
@@ -451,7 +477,7 @@ class ResponseSolver:
 
         def apply(vector: np.ndarray) -> np.ndarray:
             x, y = vector[:size].reshape(shape) / scale, vector[size:].reshape(shape)
-            c_plus, _ = self.coupling(np.stack([x, y]), np.stack([x, -y]))
+            c_plus = self.coupling_plus(np.stack([x, y]), np.stack([x, -y]))
             image = self.resolvent(c_plus[0] + 1j * c_plus[1], frequency, +1)
             return vector - np.concatenate([scale * image.real.ravel(), image.imag.ravel()])
 
