@@ -219,13 +219,15 @@ def _boundary_fraction(solver: ResponseSolver, first_order: FirstOrderOrbitals) 
 
 @dataclass
 class _Multipole:
-    """The state of one multipole's computation: box, solver, spectrum, and the real-frequency verdicts."""
+    """The state of one multipole's computation: box, solver, spectrum, the real-frequency verdicts
+    and the coupled solutions already computed for the box check (by frequency)."""
 
     state: GroundState
     solver: ResponseSolver
     spectrum: Spectrum | None
     allowed: list[tuple[int, float]]
     refused: list[str]
+    solved: dict[float, FirstOrderOrbitals]
 
 
 def _classify(L: int, solver: ResponseSolver, spectrum: Spectrum | None, request: _Request) -> tuple[list, list]:
@@ -282,7 +284,8 @@ def _one_multipole(ground_state: GroundState, L: int, request: _Request, out: _C
     velocity = VelocityForm(solver, request.tolerances) if L == 1 else None
     rows = [(omega, False) for _, omega in work.allowed] + [(nu, True) for nu in request.imaginary_frequencies]
     for omega, imaginary in rows:
-        _frequency_rows(state, solver, name, omega, imaginary, request, spectrum, velocity, out)
+        known = None if imaginary else work.solved.get(omega)
+        _frequency_rows(state, solver, name, omega, imaginary, request, spectrum, velocity, out, known)
     _sum_rules(state, solver, name, request, spectrum, out)
 
 
@@ -298,11 +301,13 @@ def _settle_box(ground_state: GroundState, L: int, request: _Request, out: _Coll
                                  tolerance=request.eigen_tolerance) if wants_spectrum else None)
         allowed, refused = _classify(L, solver, spectrum, request)
         problems = []
+        solved: dict[float, FirstOrderOrbitals] = {}
         if request.excitation_count and spectrum is not None and spectrum.squeezed(request.excitation_count):
             problems.append(f"the {name} lines do not fit in the box")
         if request.broadening == 0.0:
             for _, omega in allowed:
-                fraction = _boundary_fraction(solver, solver.solve(omega, request.coupled, tolerances=request.tolerances))
+                solved[omega] = solver.solve(omega, request.coupled, tolerances=request.tolerances)
+                fraction = _boundary_fraction(solver, solved[omega])
                 if fraction > BOUNDARY_FRACTION:
                     problems.append(f"the {name} response at {omega:g} hartree has not decayed at the wall"
                                     f" (|rho| reaches {fraction:.1e} of its maximum beyond 0.75 R)")
@@ -325,16 +330,20 @@ def _settle_box(ground_state: GroundState, L: int, request: _Request, out: _Coll
         if not state.converged:
             out.warnings.append(f"response: the ground state in the {r_max:g}-bohr box did not converge")
             break
-    return _Multipole(state, solver, spectrum, allowed, refused)
+    return _Multipole(state, solver, spectrum, allowed, refused, solved)
 
 
-def _frequency_rows(state, solver, name, omega, imaginary, request: _Request, spectrum, velocity, out: _Collected):
-    """alpha (and beta for L = 1, gamma_inf for L = 2) at one real, imaginary or broadened frequency."""
+def _frequency_rows(state, solver, name, omega, imaginary, request: _Request, spectrum, velocity, out: _Collected,
+                    known: FirstOrderOrbitals | None = None):
+    """alpha (and beta for L = 1, gamma_inf for L = 2) at one real, imaginary or broadened frequency.
+
+    ``known`` is the coupled solution at this (real) frequency if the box check already made it.
+    """
     L = solver.multipole
     broadened = request.broadening > 0.0 and not imaginary
     argument = complex(omega, request.broadening) if broadened else (1j * omega if imaginary else omega)
     tolerances = request.tolerances
-    coupled_solution = solver.solve(argument, request.coupled, tolerances=tolerances)
+    coupled_solution = known if known is not None else solver.solve(argument, request.coupled, tolerances=tolerances)
     uncoupled_solution = coupled_solution if not request.coupled else solver.solve(argument, False)
     alpha = complex(solver.polarizability(coupled_solution))
     alpha_uncoupled = complex(solver.polarizability(uncoupled_solution))

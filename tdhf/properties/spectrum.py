@@ -69,6 +69,9 @@ BOX_FRACTION = 2e-4
 VISIBLE_STRENGTH = 1e-10
 #: Roots asked of the Davidson iteration beyond those wanted: they converge the wanted ones faster.
 EXTRA_ROOTS = 3
+#: Roots first asked beyond twice the particle-hole energies below the limit (the coupled
+#: spectrum has a Rydberg series there that the V^N virtuals lack; Xe 1P: 7 roots, none uncoupled).
+INITIAL_ROOTS = 6
 
 
 @dataclass(frozen=True)
@@ -175,18 +178,21 @@ def rpa_spectrum(
         tiny = np.abs(denominators) < PRECONDITIONER_FLOOR
         return residual / np.where(tiny, np.copysign(PRECONDITIONER_FLOOR, denominators), denominators)
 
-    # The coupled roots below the limit are about as many as the particle-hole energies below it
-    # (coupling moves them, mostly up): start there, so the iteration rarely has to restart.
-    roots = max(minimum_roots, 1, int(np.count_nonzero(space.energies < limit)) + 1)
+    # Roots below the limit: at least the particle-hole energies below it, usually more (the
+    # coupled excited electron sees the ion and has a Rydberg series).  A restart with more roots
+    # starts from the roots already found.
+    roots = max(minimum_roots, 2 * int(np.count_nonzero(space.energies < limit)) + INITIAL_ROOTS)
     order = np.argsort(space.energies)
+    found = np.zeros((0, space.size))
     while True:
         wanted = min(roots + EXTRA_ROOTS, space.size)
-        guesses = np.eye(space.size)[order[:wanted]]
+        guesses = np.concatenate([found, np.eye(space.size)[order[:wanted]]])
         result = rpa_davidson(both, precondition, guesses, wanted, tolerance=tolerance)
-        energies = result.energies[:roots]
-        enough = energies.size == roots and (energies[-1] > limit or wanted >= space.size)
+        energies = result.energies  # every root asked for is converged, the extra ones too
+        enough = energies.size == wanted and (energies[-1] > limit or wanted >= space.size)
         if not result.status.converged or enough:
             break
+        found = result.p
         roots = min(2 * roots, space.size)
     p = result.p[: energies.size]
     strengths = 2.0 * energies * (p @ b) ** 2

@@ -429,6 +429,10 @@ class ResponseSolver:
             if abs(frequency.imag) > ASYMPTOTIC_RATIO * self.largest_excitation:
                 return self._asymptotic_imaginary_axis(frequency, rhs_plus, coupled)
             return self._solve_imaginary_axis(frequency, rhs_plus, coupled, tolerances, guess)
+        if frequency == 0.0 and coupled and self.interacting and not np.iscomplexobj(rhs_plus):
+            for parity in (1.0, -1.0):
+                if rhs_minus is rhs_plus or np.array_equal(rhs_minus, parity * rhs_plus):
+                    return self._solve_static(rhs_plus, parity, tolerances, guess)
         plus0 = self.resolvent(rhs_plus, frequency, +1)
         minus0 = self.resolvent(rhs_minus, frequency, -1)
         if not coupled or not self.interacting:
@@ -453,6 +457,27 @@ class ResponseSolver:
         return FirstOrderOrbitals(
             self.multipole, frequency, True, solution[:size].reshape(shape), solution[size:].reshape(shape), status
         )
+
+    def _solve_static(self, rhs: np.ndarray, parity: float, tolerances: ResponseTolerances,
+                      guess: FirstOrderOrbitals | None) -> FirstOrderOrbitals:
+        """At omega = 0 with b- = parity * b+, rho- = parity * rho+: solve for rho+ only (half the work).
+
+        Both resolvents coincide at zero frequency, so rho+ = G(0) [b + c+(rho+, parity rho+)].
+        """
+        plus0 = self.resolvent(rhs, 0.0, +1)
+        shape = plus0.shape
+
+        def apply(vector: np.ndarray) -> np.ndarray:
+            plus = vector.reshape(shape)
+            return vector - self.resolvent(self.coupling_plus(plus, parity * plus), 0.0, +1).ravel()
+
+        start = plus0.ravel()
+        initial = start if guess is None else np.real(guess.plus).ravel()
+        solution, status = gmres(apply, start, x0=initial, tolerance=tolerances.krylov_tolerance,
+                                 max_iterations=tolerances.max_krylov_iterations, restart=KRYLOV_RESTART)
+        plus = solution.reshape(shape)
+        logger.debug("response L=%d omega=0 (parity %+d): %s", self.multipole, parity, status.describe())
+        return FirstOrderOrbitals(self.multipole, 0.0, True, plus, parity * plus, status)
 
     def _solve_imaginary_axis(
         self, frequency: complex, rhs: np.ndarray, coupled: bool, tolerances: ResponseTolerances,
