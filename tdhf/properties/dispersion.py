@@ -107,7 +107,8 @@ import numpy as np
 from tdhf.errors import ConvergenceError, InputError, TdhfError
 from tdhf.ground_state import GroundState
 from tdhf.numerics.threads import single_blas_thread
-from tdhf.response.solver import ResponseSolver, ResponseTolerances
+from tdhf.numerics.extrapolation import lagrange_extrapolate
+from tdhf.response.solver import FirstOrderOrbitals, ResponseSolver, ResponseTolerances
 
 __all__ = [
     "DispersionCoefficients",
@@ -336,21 +337,38 @@ def imaginary_polarizabilities(
     for i, multipole in enumerate(multipoles):
         solver = ResponseSolver(ground_state.grid, ground_state.system.Z, ground_state.shells,
                                 ground_state.orbital_energies, multipole)
-        previous = None
+        history: list[tuple[float, FirstOrderOrbitals]] = []
         for k, nu in enumerate(frequencies):
-            # The solution at the previous (neighbouring) node starts the Krylov solve.
-            first_order = solver.solve(1j * nu, tolerances=tolerances, guess=previous)
+            # Cubic extrapolation from the previous nodes (in the map variable t) starts the solve.
+            first_order = solver.solve(1j * nu, tolerances=tolerances, guess=_predicted(history, nu))
             alpha = solver.polarizability(first_order).real
             if not first_order.converged or not math.isfinite(alpha):
                 raise ConvergenceError(
                     f"response of {name}: L={multipole} at i*{nu:.6g} hartree gave alpha = {alpha!r}"
                     f" ({first_order.status.describe()})"
                 )
-            previous = first_order
+            history = (history + [(nu, first_order)])[-EXTRAPOLATION_POINTS:]
             out[i, k] = alpha
             if progress is not None:
                 progress(1)
     return out
+
+
+#: Previous solutions the next node's starting guess is extrapolated from (a cubic).
+EXTRAPOLATION_POINTS = 4
+
+
+def _predicted(history: list[tuple[float, FirstOrderOrbitals]], nu: float) -> FirstOrderOrbitals | None:
+    """Starting guess at i nu from the solutions at the previous nodes, or None for the first."""
+    if not history:
+        return None
+    first = history[-1][1]
+
+    def t(frequency: float) -> float:  # the variable of the quadrature map omega = s (1 + t)/(1 - t)
+        return (frequency - FREQUENCY_SCALE) / (frequency + FREQUENCY_SCALE)
+
+    plus = lagrange_extrapolate([t(x) for x, _ in history], [f.plus for _, f in history], t(nu))
+    return FirstOrderOrbitals(first.multipole, 1j * nu, True, plus, plus.conj())
 
 
 # --------------------------------------------------------------------------------------------
