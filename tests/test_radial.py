@@ -86,8 +86,6 @@ class LobattoErrors:
     weight: np.ndarray
     value: np.ndarray
     attainable: np.ndarray
-    exact_nodes: tuple
-    exact_weights: tuple
 
 
 @lru_cache(maxsize=None)
@@ -121,8 +119,7 @@ def lobatto_errors(order: int) -> LobattoErrors:
         for j in range(1, order):
             _, slope, curvature = legendre_mp(order, mp.mpf(float(nodes[j])))
             attainable[j] += abs(float(mp.mpf(float(slopes[j])) - slope)) / abs(float(curvature))
-    return LobattoErrors(np.array(node_error), np.array(weight_error), np.array(value_error), np.array(attainable),
-                         tuple(exact), tuple(exact_weights))
+    return LobattoErrors(np.array(node_error), np.array(weight_error), np.array(value_error), np.array(attainable))
 
 
 def derivative_entry_error(order: int) -> np.ndarray:
