@@ -13,10 +13,11 @@ Response
     ResponseSolver         first-order TDHF equations of one atom and multipole, reused over frequencies
     compute_response       polarizabilities, shielding factors, sum rules, excitations -> ResponseResults
     lowest_excitations     RPA excitation energies and oscillator strengths
+    certify                every number again with grid, box, tolerances and quadrature varied
 
 Decks and runs
     load_deck, parse_deck  TOML decks -> Deck
-    run_deck               everything a deck asks for -> RunResult (JSON via ``tdhf.driver.result_to_json``)
+    run_deck               everything a deck asks for -> RunResult (JSON via ``tdhf.report.json_result.result_to_json``)
 
 Errors
     InputError (exit code 2 in the CLI) and ConvergenceError (exit code 3), see :mod:`tdhf.errors`.
@@ -26,6 +27,7 @@ alpha_L = 2 sum_n |<0| sum_i r_i^L P_L(cos theta_i) |n>|^2 / (E_n - E_0).
 """
 
 from tdhf.deck import load_deck, parse_deck
+from tdhf.certify import certify
 from tdhf.driver import run_deck
 from tdhf.errors import ConvergenceError, InputError
 from tdhf.ground_state import GroundState, OrbitalResult, solve_ground_state
@@ -49,6 +51,7 @@ __all__ = [
     "load_deck",
     "parse_deck",
     "run_deck",
+    "certify",
     "InputError",
     "ConvergenceError",
 ]

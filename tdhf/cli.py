@@ -28,7 +28,9 @@ from typing import Any, Iterator, Sequence, TextIO
 from rich.console import Console
 
 from tdhf.deck import Deck, build_deck, load_deck, parse_system_name
-from tdhf.driver import certify, program_info, result_to_json, run_deck
+from tdhf.certify import certify
+from tdhf.driver import program_info, run_deck
+from tdhf.report.json_result import result_to_json
 from tdhf.errors import ConvergenceError, InputError
 from tdhf.properties.dispersion import write_polarizability_csv
 from tdhf.report.serialize import write_json
@@ -54,7 +56,8 @@ def build_parser() -> argparse.ArgumentParser:
     common = argparse.ArgumentParser(add_help=False)
     common.add_argument("--json", metavar="OUT.json", type=Path, help="also write the results to this JSON file")
     common.add_argument("--certify", action="store_true",
-                        help="recompute on a clearly finer grid and report how much every number changes")
+                        help="rerun with the grid refined, the box enlarged and the tolerances tightened, and"
+                             " report every number's uncertainty")
     talk = common.add_mutually_exclusive_group()
     talk.add_argument("-v", "--verbose", action="store_true",
                       help="show options, progress and every SCF iteration on stderr")
@@ -77,6 +80,8 @@ def build_parser() -> argparse.ArgumentParser:
                       help="real response frequencies, hartree")
     atom.add_argument("--imaginary", type=float, nargs="+", metavar="W",
                       help="imaginary response frequencies, hartree")
+    atom.add_argument("--excitations", type=int, metavar="N",
+                      help="list the N lowest bound lines of each multipole")
 
     pairs = commands.add_parser("pairs", parents=[common], help="C6, C8, C10 for every pair of a list of systems",
                                 description="Dispersion coefficients of all pairs (like pairs included).")
@@ -119,7 +124,8 @@ def _deck_from_arguments(args: argparse.Namespace) -> Deck:
     if args.tight:
         data["grid"] = {"preset": "tight"}
     response = {key: value for key, value in (("multipoles", args.multipoles), ("frequencies", args.frequencies),
-                                              ("imaginary_frequencies", args.imaginary)) if value is not None}
+                                              ("imaginary_frequencies", args.imaginary),
+                                              ("excitations", args.excitations)) if value is not None}
     if response:
         data["response"] = response
     return build_deck(data)

@@ -3,14 +3,15 @@
 A deck has one table per part of the calculation; only ``[atom]`` is required::
 
     schema = 1                     # optional; the deck format version (only 1 exists)
+    accuracy = "default"           # optional: "default" or "tight" (grid, SCF and solver together)
 
     [atom]
     element = "Ne"                 # symbol or atomic number
     charge = 0                     # optional, integer
     configuration = "1s2 2s2 2p6"  # optional; default: the ground-state configuration
 
-    [grid]                         # optional: tdhf.radial.mesh.GridSettings
-    preset = "tight"               # "default" or "tight"; the other keys override the preset
+    [grid]                         # optional: tdhf.radial.mesh.GridSettings (override the preset)
+    preset = "tight"               # the same as the top-level accuracy key (kept for old decks)
     order = 14
     growth = 1.5
     first_element = 0.01           # bohr
@@ -29,6 +30,7 @@ A deck has one table per part of the calculation; only ``[atom]`` is required::
     imaginary_frequencies = [0.5]  # imaginary frequencies, hartree
     coupled = true                 # also solve the coupled (TDHF) equations, not only uncoupled
     broadening = 0.0               # eta > 0: complex frequencies omega + i eta (a broadened spectrum)
+    excitations = 3                # lowest bound lines listed per multipole (default 0: none)
 
     [dispersion]                   # optional: dispersion coefficients with partner systems
     partners = ["He", "Na+"]       # each paired with the [atom] system
@@ -59,14 +61,17 @@ import re
 import tomllib
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Callable, Mapping
+from typing import Any, Mapping
 
 from tdhf.elements import atomic_number, symbol
 from tdhf.errors import DeckError, FrequencyError, InputError, UnknownElementError
+from tdhf.accuracy import ACCURACY_PRESETS
 from tdhf.radial.mesh import GridSettings
+from tdhf.response.solver import ResponseTolerances
 from tdhf.scf import ScfSettings
 from tdhf.system import System
 from tdhf.properties.dispersion import DEFAULT_QUADRATURE_POINTS, QUADRATURE_RANGE
+from tdhf.properties.response_properties import MAX_FREQUENCY
 
 __all__ = [
     "SCHEMA_VERSION",
@@ -85,8 +90,8 @@ __all__ = [
 SCHEMA_VERSION = 1
 #: Multipole orders the response accepts: dipole, quadrupole, octupole.
 MULTIPOLE_RANGE = (1, 3)
-#: Allowed number of imaginary-frequency quadrature points for dispersion coefficients.
-GRID_PRESETS: dict[str, Callable[[], GridSettings]] = {"default": GridSettings, "tight": GridSettings.tight}
+#: Most lines listed per multipole.
+MAX_EXCITATIONS = 100
 
 
 @dataclass(frozen=True)
@@ -111,6 +116,7 @@ class ResponseSection:
     imaginary_frequencies: tuple[float, ...] = ()
     coupled: bool = True
     broadening: float = 0.0
+    excitations: int = 0
 
 
 @dataclass(frozen=True)
@@ -128,7 +134,11 @@ class DispersionSection:
 
 @dataclass(frozen=True)
 class Deck:
-    """A validated deck: one field per table (None for an absent optional calculation)."""
+    """A validated deck: one field per table (None for an absent optional calculation).
+
+    ``accuracy`` names the preset (tdhf.accuracy) that ``grid``, ``scf`` and ``tolerances`` started
+    from; the [grid] and [scf] keys of the deck override it.
+    """
 
     atom: AtomSection
     grid: GridSettings = GridSettings()
@@ -136,6 +146,8 @@ class Deck:
     response: ResponseSection | None = None
     dispersion: DispersionSection | None = None
     schema: int = SCHEMA_VERSION
+    accuracy: str = "default"
+    tolerances: ResponseTolerances = ResponseTolerances()
 
 
 # --------------------------------------------------------------------------------------------
@@ -198,11 +210,30 @@ def build_deck(data: Mapping[str, Any]) -> Deck:
     if "atom" not in data:
         raise DeckError('atom: missing table [atom]; every deck names its system, e.g. [atom] element = "Ne"')
     atom = _atom(_table("atom", data["atom"]))
-    grid = _grid(_table("grid", data.get("grid", {})))
-    scf = _scf(_table("scf", data.get("scf", {})))
+    grid_table = _table("grid", data.get("grid", {}))
+    accuracy = _accuracy(data, grid_table)
+    preset = ACCURACY_PRESETS[accuracy]
+    grid = _grid(grid_table, preset.grid)
+    scf = _scf(_table("scf", data.get("scf", {})), preset.scf)
     response = _response(_table("response", data["response"])) if "response" in data else None
     dispersion = _dispersion(_table("dispersion", data["dispersion"])) if "dispersion" in data else None
-    return Deck(atom=atom, grid=grid, scf=scf, response=response, dispersion=dispersion, schema=schema)
+    return Deck(atom=atom, grid=grid, scf=scf, response=response, dispersion=dispersion, schema=schema,
+                accuracy=accuracy, tolerances=preset.tolerances)
+
+
+def _accuracy(data: Mapping[str, Any], grid_table: Mapping[str, Any]) -> str:
+    """The preset name: top-level ``accuracy``, or the older ``[grid] preset`` (the same thing)."""
+    names = {}
+    if "accuracy" in data:
+        names["accuracy"] = _string("accuracy", data["accuracy"])
+    if "preset" in grid_table:
+        names["grid.preset"] = _string("grid.preset", grid_table["preset"])
+    for key, name in names.items():
+        if name not in ACCURACY_PRESETS:
+            raise DeckError(f"{key}: {name!r} is unknown; use one of {_quoted(ACCURACY_PRESETS)}")
+    if len(set(names.values())) > 1:
+        raise DeckError("grid.preset: contradicts accuracy; give only the top-level accuracy key")
+    return next(iter(names.values()), "default")
 
 
 def _atom(table: Mapping[str, Any]) -> AtomSection:
@@ -222,18 +253,15 @@ def _atom(table: Mapping[str, Any]) -> AtomSection:
     return section
 
 
-def _grid(table: Mapping[str, Any]) -> GridSettings:
+def _grid(table: Mapping[str, Any], preset: GridSettings) -> GridSettings:
     fields = _field_names(GridSettings)
     _check_keys("grid", table, fields + ("preset",))
-    preset = _string("grid.preset", table.get("preset", "default"))
-    if preset not in GRID_PRESETS:
-        raise DeckError(f"grid.preset: {preset!r} is unknown; use one of {_quoted(GRID_PRESETS)}")
     values = {"order": _integer("grid.order", table["order"])} if "order" in table else {}
     values |= {key: _number(f"grid.{key}", table[key]) for key in fields if key != "order" and key in table}
-    return dataclasses.replace(GRID_PRESETS[preset](), **values)  # GridError passes through
+    return dataclasses.replace(preset, **values)  # GridError passes through
 
 
-def _scf(table: Mapping[str, Any]) -> ScfSettings:
+def _scf(table: Mapping[str, Any], preset: ScfSettings) -> ScfSettings:
     _check_keys("scf", table, _field_names(ScfSettings))
     values: dict[str, Any] = {}
     for key in ("energy_tolerance", "residual_tolerance"):
@@ -251,7 +279,7 @@ def _scf(table: Mapping[str, Any]) -> ScfSettings:
         if not 0.0 <= values["damping"] < 1.0:
             raise DeckError(f"scf.damping: {values['damping']!r} must be in [0, 1), the fraction of "
                             "the previous Fock matrix kept")
-    return ScfSettings(**values)
+    return dataclasses.replace(preset, **values)
 
 
 def _response(table: Mapping[str, Any]) -> ResponseSection:
@@ -275,7 +303,10 @@ def _response(table: Mapping[str, Any]) -> ResponseSection:
     broadening = _number("response.broadening", table.get("broadening", defaults.broadening))
     if not 0.0 <= broadening <= 1.0:
         raise DeckError(f"response.broadening: {broadening!r} hartree must be in [0, 1]; 0 means real frequencies")
-    return ResponseSection(multipoles=multipoles, coupled=coupled, broadening=broadening, **frequencies)
+    excitations = _in_range("response.excitations", _integer("response.excitations", table.get("excitations", 0)),
+                            0, MAX_EXCITATIONS, "it is the number of lowest bound lines listed per multipole")
+    return ResponseSection(multipoles=multipoles, coupled=coupled, broadening=broadening, excitations=excitations,
+                           **frequencies)
 
 
 def _frequencies(path: str, value: Any) -> tuple[float, ...]:
@@ -284,6 +315,9 @@ def _frequencies(path: str, value: Any) -> tuple[float, ...]:
         number = _number(f"{path}[{i}]", item)
         if number < 0.0:
             raise FrequencyError(f"{path}[{i}]: {number!r} is negative; frequencies are in hartree and must be >= 0")
+        if number > MAX_FREQUENCY:
+            raise FrequencyError(f"{path}[{i}]: {number:g} hartree is above {MAX_FREQUENCY:g}, the largest accepted;"
+                                 " alpha is N/nu^2 to every digit long before")
         numbers.append(number)
     return _unique(path, numbers)
 
@@ -368,7 +402,7 @@ def format_deck(deck: Deck) -> str:
     >>> parse_deck(format_deck(deck)) == deck
     True
     """
-    lines = [f"schema = {deck.schema}"]
+    lines = [f"schema = {deck.schema}", f"accuracy = {_toml_value(deck.accuracy)}"]
     for name in ("atom", "grid", "scf", "response", "dispersion"):
         section = getattr(deck, name)
         if section is None:
@@ -396,8 +430,8 @@ def _toml_value(value: Any) -> str:
 # Checks shared by the tables
 
 
-_TOP_LEVEL = ("schema", "atom", "grid", "scf", "response", "dispersion")
-_TABLES = _TOP_LEVEL[1:]
+_TOP_LEVEL = ("schema", "accuracy", "atom", "grid", "scf", "response", "dispersion")
+_TABLES = _TOP_LEVEL[2:]
 
 
 def _field_names(cls: type) -> tuple[str, ...]:

@@ -3,38 +3,44 @@
 The driver only sequences library calls and collects their typed results into a
 :class:`RunResult`; it does no numerics of its own, no printing and no file I/O.
 
-Non-convergence policy: a ground state that does not converge is *returned* with
-``converged=False`` (and the library's RuntimeWarning), never raised, so the caller can still
-write the results; the calculations that depend on it are skipped with a warning.  The command
-line turns :meth:`RunResult.convergence_problems` into exit code 3.
+Non-convergence policy (:mod:`tdhf.numerics.status`): a ground state that does not converge is
+*returned* with ``converged=False`` (and the library's RuntimeWarning), never raised, so the caller
+can still write the results; the calculations that depend on it are skipped with a warning.
+Every response row carries ``converged``; :meth:`RunResult.convergence_problems` lists every
+failed solve, and the command line turns a non-empty list into exit code 3.
 
 >>> from tdhf.deck import parse_deck
 >>> result = run_deck(parse_deck('[atom]\\nelement = "He"\\n'))
 >>> print(result.converged, f"{result.ground_state.total_energy:.6f}")
 True -2.861680
->>> sorted(result_to_json(result))
-['atom', 'ground_state', 'program', 'settings', 'warnings']
 """
 
 from __future__ import annotations
 
-import dataclasses
 import importlib.metadata
 import logging
 import warnings
 from dataclasses import dataclass, field
-from typing import Any, Callable
+from typing import Callable
 
 from tdhf.deck import Deck, DispersionSection, ResponseSection, parse_system_name
 from tdhf.ground_state import GroundState, solve_ground_state
-from tdhf.properties.dispersion import compute_dispersion, dispersion_table
+from tdhf.properties.dispersion import (
+    DispersionCoefficients,
+    ImaginaryFrequencyTable,
+    compute_dispersion,
+    dispersion_table,
+)
+from tdhf.properties.polarizability import DipoleShielding, Polarizability, QuadrupoleShielding
 from tdhf.properties.response_properties import NORMALIZATION, compute_response
+from tdhf.properties.spectrum import Excitation, StrengthDistribution
+from tdhf.properties.sum_rules import SumRule
 from tdhf.radial.mesh import GridSettings
-from tdhf.report.serialize import to_jsonable
+from tdhf.response.solver import ResponseTolerances
 from tdhf.scf import ScfSettings
 from tdhf.system import System
 
-__all__ = ["ProgramInfo", "RunSettings", "RunResult", "run_deck", "result_to_json", "program_info",
+__all__ = ["ProgramInfo", "RunSettings", "RunResult", "Certification", "Conventions", "run_deck", "program_info",
            "RESPONSE_FIELDS"]
 
 logger = logging.getLogger(__name__)
@@ -63,6 +69,11 @@ class Conventions:
         "C6 = (3/pi) int a1 a1, C8 = (15/(2 pi)) int (a1 a2 + a2 a1), C10 = (14/pi) int (a1 a3 + a3 a1)"
         " + (35/pi) int a2 a2, a_L = alpha_L(i w)"
     )
+    uncertainty: str = (
+        "certification[].difference: the largest change of the number when the grid is refined, the box"
+        " enlarged 1.5x, the SCF/Krylov/eigensolver tolerances tightened 100x and (C_n) the quadrature enlarged;"
+        " <key>_uncertainty = 2 |difference| (absolute, same unit); absent when the run was not certified"
+    )
 
 
 @dataclass(frozen=True)
@@ -86,11 +97,35 @@ def program_info() -> ProgramInfo:
 class RunSettings:
     """Every effective option of a run (defaults filled in), stored with the results."""
 
+    accuracy: str
     grid: GridSettings
     scf: ScfSettings
+    tolerances: ResponseTolerances
     response: ResponseSection | None
     dispersion: DispersionSection | None
     schema: int
+
+
+@dataclass(frozen=True)
+class Certification:
+    """One number recomputed with every approximation varied (:mod:`tdhf.certify`).
+
+    ``quantity`` is the number's key path in the JSON result, e.g. ``polarizabilities[0].coupled``;
+    ``refined`` its value in the variation that moved it most (``approximation``: "grid", "box",
+    "tolerances" or "quadrature"), ``difference`` = refined - value.  ``uncertainty`` =
+    :data:`tdhf.certify.UNCERTAINTY_FACTOR` x |difference|: it covers the error of ``value`` when
+    every variation at least halves the error of its approximation.  ``converged`` is False if
+    the number or a variation did not converge.
+    """
+
+    quantity: str
+    value: float
+    refined: float
+    difference: float
+    relative_difference: float
+    approximation: str = "grid"
+    converged: bool = True
+    uncertainty: float = 0.0
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -103,12 +138,16 @@ class RunResult:
         The system of the ``[atom]`` table.
     ground_state : GroundState
         Its Hartree-Fock ground state (hartree, bohr); check ``converged``.
-    polarizabilities, shielding, quadrupole_shielding, sum_rules, excitations : tuple
+    polarizabilities, shielding, quadrupole_shielding, sum_rules, excitations, strength_distribution : tuple
         Rows from :func:`tdhf.properties.response_properties.compute_response` (empty without ``[response]``).
-    dispersion : tuple
-        Dispersion-coefficient rows, one per partner (empty without ``[dispersion]``).
+    dispersion : tuple of DispersionCoefficients
+        One row per pair (empty without ``[dispersion]``); ``polarizability_tables`` the alpha_L(i w) tables.
+    certification : tuple of Certification
+        Empty unless the run was certified.
     warnings : tuple of str
         One-line notes from every stage (box too small, not converged, skipped stages ...).
+    rejected : tuple of str
+        Real frequencies refused (at a pole, above the threshold), each naming its deck key.
     settings : RunSettings
         The effective options.
     program : ProgramInfo
@@ -118,15 +157,15 @@ class RunResult:
 
     atom: System
     ground_state: GroundState
-    polarizabilities: tuple[Any, ...] = ()
-    shielding: tuple[Any, ...] = ()
-    quadrupole_shielding: tuple[Any, ...] = ()
-    sum_rules: tuple[Any, ...] = ()
-    excitations: tuple[Any, ...] = ()
-    strength_distribution: tuple[Any, ...] = ()
-    dispersion: tuple[Any, ...] = ()
-    polarizability_tables: tuple[Any, ...] = ()
-    certification: tuple["Certification", ...] = ()
+    polarizabilities: tuple[Polarizability, ...] = ()
+    shielding: tuple[DipoleShielding, ...] = ()
+    quadrupole_shielding: tuple[QuadrupoleShielding, ...] = ()
+    sum_rules: tuple[SumRule, ...] = ()
+    excitations: tuple[Excitation, ...] = ()
+    strength_distribution: tuple[StrengthDistribution, ...] = ()
+    dispersion: tuple[DispersionCoefficients, ...] = ()
+    polarizability_tables: tuple[ImaginaryFrequencyTable, ...] = ()
+    certification: tuple[Certification, ...] = ()
     warnings: tuple[str, ...] = ()
     rejected: tuple[str, ...] = ()
     settings: RunSettings
@@ -136,85 +175,36 @@ class RunResult:
 
     @property
     def converged(self) -> bool:
-        """True if every ground state of the run converged."""
+        """True if every ground state and every solve behind a reported number converged."""
         return not self.convergence_problems()
 
     def convergence_problems(self) -> tuple[str, ...]:
-        """One line per unconverged ground state or coupled response solve."""
-        response = tuple(
-            f"{self.atom.name}: coupled L={row.multipole} response at {row.frequency:g} hartree"
-            f"{' (imaginary)' if row.imaginary else ''} did not converge (GMRES)"
-            for row in self.polarizabilities
-            if not row.converged
-        )
-        return response + tuple(
+        """One line per unconverged ground state, response row, sum rule, line or pair."""
+        problems = [
+            f"{self.atom.name}: L={row.multipole} polarizability at {row.frequency:g} hartree"
+            f"{' (imaginary)' if row.imaginary else ''} did not converge"
+            for row in self.polarizabilities if not row.converged
+        ]
+        problems += [f"{self.atom.name}: sum rule S_{row.multipole}({row.k}) did not converge"
+                     for row in self.sum_rules if not row.converged]
+        problems += [f"{self.atom.name}: L={row.multipole} excitation at {row.energy:.6f} hartree did not converge"
+                     for row in self.excitations if not row.converged]
+        problems += [f"{'-'.join(row.pair)}: dispersion coefficients not converged"
+                     for row in self.dispersion if not row.converged]
+        problems += [f"certification: {row.quantity} did not converge in a variation"
+                     for row in self.certification if not row.converged]
+        problems += [
             f"{state.system.name}: Hartree-Fock did not converge after {state.iterations} iterations "
             f"(DIIS, then damped DIIS; last: {state.scf_strategy}); final orbital change "
             f"{state.orbital_change:.1e}, energy change {state.energy_change:.1e} hartree"
             for state in (self.ground_state, *self.partner_ground_states)
             if not state.converged
-        )
+        ]
+        return tuple(problems)
 
-
-@dataclass(frozen=True)
-class Certification:
-    """One number recomputed on a clearly finer grid (``GridSettings.refined()``).
-
-    ``quantity`` is the number's key path in the JSON result, e.g. ``polarizabilities[0].coupled``.
-    """
-
-    quantity: str
-    value: float
-    refined: float
-    difference: float
-    relative_difference: float
-
-
-#: Relative change on the refined grid above which a certified number is reported as unconverged.
-CERTIFICATION_TOLERANCE = 1e-7
-#: Result lists compared in full, and the ground-state numbers compared.
-_CERTIFIED_LISTS = (*RESPONSE_FIELDS, "dispersion")
-_CERTIFIED_GROUND_STATE = ("total_energy", "virial_ratio")
-#: Bookkeeping fields that are not results of the physics (they may differ between grids).
-_NOT_CERTIFIED = {"frequency", "broadening", "r_max", "krylov_iterations", "multipole", "k", "cutoff",
-                  "continuum_threshold", "discrete_states", "eigen_energy", "eigen_oscillator_strength",
-                  "C6_error", "C8_error", "C10_error", "beyond_cutoff", "continuum_sum", "discrete_sum",
-                  "difference"}
-
-
-def certify(result: RunResult, deck: Deck, progress: Progress | None = None) -> tuple[Certification, ...]:
-    """Recompute the deck on ``deck.grid.refined()`` and compare every result number.
-
-    Returns one row per number; a warning names those whose relative change exceeds
-    ``CERTIFICATION_TOLERANCE`` (their digits beyond that are not trustworthy).
-    """
-    refined_deck = dataclasses.replace(deck, grid=deck.grid.refined())
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", RuntimeWarning)  # the same notes were given for the main run
-        refined = run_deck(refined_deck, progress)
-    base, fine = to_jsonable(result), to_jsonable(refined)
-    pairs = [(f"ground_state.{key}", base["ground_state"][key], fine["ground_state"][key])
-             for key in _CERTIFIED_GROUND_STATE]
-    pairs += [(f"ground_state.orbitals[{i}].energy", a["energy"], b["energy"])
-              for i, (a, b) in enumerate(zip(base["ground_state"]["orbitals"], fine["ground_state"]["orbitals"]))]
-    for name in _CERTIFIED_LISTS:
-        for i, (a, b) in enumerate(zip(base[name], fine[name])):
-            pairs += [(f"{name}[{i}].{key}", value, b.get(key)) for key, value in a.items()
-                      if key not in _NOT_CERTIFIED and isinstance(value, float) and isinstance(b.get(key), float)
-                      and (value, b.get(key)) != (0.0, 0.0)]
-    rows = tuple(
-        Certification(path, value, other, other - value, abs(other - value) / max(abs(value), 1e-300))
-        for path, value, other in pairs
-    )
-    loose = [row for row in rows if row.relative_difference > CERTIFICATION_TOLERANCE]
-    if loose:
-        worst = max(loose, key=lambda row: row.relative_difference)
-        warnings.warn(
-            f"certification: {len(loose)} numbers change by more than {CERTIFICATION_TOLERANCE:g} relative on a"
-            f" refined grid (worst {worst.quantity}: {worst.relative_difference:.1e}); use [grid] preset = \"tight\"",
-            RuntimeWarning, stacklevel=2,
-        )
-    return rows
+    def uncertainties(self) -> dict[str, float]:
+        """Absolute uncertainty of each certified number by its JSON key path (empty if not certified)."""
+        return {row.quantity: row.uncertainty for row in self.certification}
 
 
 def run_deck(deck: Deck, progress: Progress | None = None) -> RunResult:
@@ -242,26 +232,27 @@ def run_deck(deck: Deck, progress: Progress | None = None) -> RunResult:
     """
     report = progress or (lambda stage: None)
     system = deck.atom.to_system()
-    settings = RunSettings(deck.grid, deck.scf, deck.response, deck.dispersion, deck.schema)
-    for name in ("grid", "scf", "response", "dispersion"):
+    settings = RunSettings(deck.accuracy, deck.grid, deck.scf, deck.tolerances, deck.response, deck.dispersion,
+                           deck.schema)
+    for name in ("accuracy", "grid", "scf", "tolerances", "response", "dispersion"):
         logger.info("option %s: %s", name, getattr(settings, name))
     report(f"ground state of {system.name}")
     ground_state = solve_ground_state(system, deck.grid, deck.scf)
     notes = list(ground_state.warnings)
     own_notes: list[str] = []  # written here, so warned here; the library warns its own
-    fields: dict[str, Any] = {}
+    fields: dict[str, tuple] = {}
     if not ground_state.converged:
         own_notes += [f"{name}: skipped; the ground state of {system.name} did not converge"
                       for name in ("response", "dispersion") if getattr(deck, name) is not None]
     else:
         if deck.response is not None:
             report(f"response of {system.name}")
-            response_fields, library_notes, driver_notes = _run_response(ground_state, deck.response)
+            response_fields, library_notes, driver_notes = _run_response(ground_state, deck.response, deck.tolerances)
             fields |= response_fields
             notes += library_notes
             own_notes += driver_notes
         if deck.dispersion is not None:
-            dispersion_fields, library_notes = _run_dispersion(ground_state, deck.dispersion, deck.grid, deck.scf, report)
+            dispersion_fields, library_notes = _run_dispersion(ground_state, deck.dispersion, deck, report)
             fields |= dispersion_fields
             notes += library_notes
     for note in own_notes:
@@ -271,8 +262,8 @@ def run_deck(deck: Deck, progress: Progress | None = None) -> RunResult:
 
 
 def _run_response(
-    ground_state: GroundState, section: ResponseSection
-) -> tuple[dict[str, tuple[Any, ...]], tuple[str, ...], tuple[str, ...]]:
+    ground_state: GroundState, section: ResponseSection, tolerances: ResponseTolerances
+) -> tuple[dict[str, tuple], tuple[str, ...], tuple[str, ...]]:
     """Response rows by RunResult field, the notes of tdhf.response, and the driver's notes."""
     results = compute_response(
         ground_state,
@@ -281,6 +272,9 @@ def _run_response(
         imaginary_frequencies=section.imaginary_frequencies,
         coupled=section.coupled,
         broadening=section.broadening,
+        excitation_count=section.excitations,
+        tolerances=tolerances,
+        eigen_tolerance=tolerances.eigen_tolerance,
     )
     fields = {name: tuple(getattr(results, name)) for name in RESPONSE_FIELDS}
     fields["rejected"] = tuple(results.rejected)
@@ -290,10 +284,9 @@ def _run_response(
 def _run_dispersion(
     ground_state: GroundState,
     section: DispersionSection,
-    grid: GridSettings,
-    scf: ScfSettings,
+    deck: Deck,
     report: Progress,
-) -> tuple[dict[str, tuple[Any, ...]], tuple[str, ...]]:
+) -> tuple[dict[str, tuple], tuple[str, ...]]:
     """Dispersion rows, alpha(i w) tables and partner ground states by RunResult field, and the notes.
 
     Each other system is solved with the deck's grid and SCF settings (the atom's own ground state
@@ -307,39 +300,22 @@ def _run_dispersion(
             others.append(ground_state)
             continue
         report(f"ground state of {name}")
-        others.append(solve_ground_state(system, grid, scf))
+        others.append(solve_ground_state(system, deck.grid, deck.scf))
     notes = tuple(note for state in others if state is not ground_state for note in state.warnings)
 
     def count(done: int, total: int) -> None:
         report(f"dispersion: imaginary-frequency responses {done}/{total}")
 
     if section.partners:
-        results = compute_dispersion(ground_state, tuple(others), quadrature_points=section.quadrature_points)
+        results = compute_dispersion(ground_state, tuple(others), quadrature_points=section.quadrature_points,
+                                     tolerances=deck.tolerances)
     else:
         series = [ground_state] + [state for state in others if state is not ground_state]
-        results = dispersion_table(series, quadrature_points=section.quadrature_points, progress=count)
+        results = dispersion_table(series, quadrature_points=section.quadrature_points, progress=count,
+                                   tolerances=deck.tolerances)
     fields = {
         "dispersion": tuple(results.coefficients),
         "polarizability_tables": tuple(results.polarizability_tables),
         "partner_ground_states": tuple(others),
     }
     return fields, notes + tuple(results.warnings)
-
-
-def result_to_json(result: RunResult) -> dict[str, Any]:
-    """The JSON object of a run: RunResult fields as keys.
-
-    The response lists are left out when the deck had no ``[response]`` table, ``dispersion``
-    when it had no ``[dispersion]`` table; otherwise they are present, possibly empty.
-    """
-    data = to_jsonable(result)
-    if result.settings.response is None:
-        del data["rejected"]
-        for name in RESPONSE_FIELDS:
-            del data[name]
-    if result.settings.dispersion is None:
-        del data["dispersion"]
-        del data["polarizability_tables"]
-    if not result.certification:
-        del data["certification"]
-    return data

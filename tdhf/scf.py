@@ -19,7 +19,7 @@ Energies are in hartree.  The total energy is
 from __future__ import annotations
 
 import logging
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Protocol, Sequence
 
 import numpy as np
@@ -76,6 +76,19 @@ class ScfSettings:
             raise InputError(f"scf.diis_size: {self.diis_size!r} must be an integer in 1..50; the default is 10")
         if not 0.0 <= self.damping < 1.0:
             raise InputError(f"scf.damping: {self.damping!r} must be in [0, 1); the default is 0.5")
+
+    def tightened(self, factor: float = 0.01) -> "ScfSettings":
+        """Tolerances ``factor`` times smaller (round-off floors kept) and twice the iterations."""
+        return replace(self, energy_tolerance=max(self.energy_tolerance * factor, ENERGY_FLOOR),
+                       residual_tolerance=max(self.residual_tolerance * factor, RESIDUAL_FLOOR),
+                       max_iterations=2 * self.max_iterations)
+
+
+#: Smallest useful SCF tolerances: below them the energy change and the orbital change are
+#: round-off (energies are sums of ~1e8-hartree kinetic elements; ENERGY_ROUNDOFF relaxes the
+#: energy test further for heavy atoms).
+ENERGY_FLOOR = 1e-14
+RESIDUAL_FLOOR = 1e-12
 
 
 class ShellSpec(Protocol):

@@ -14,7 +14,8 @@ from pathlib import Path
 from typing import Callable, Sequence
 
 from tdhf.deck import load_deck
-from tdhf.driver import result_to_json, run_deck
+from tdhf.driver import run_deck
+from tdhf.report.json_result import result_to_json
 from tdhf.errors import InputError
 from tdhf.report.serialize import write_json
 

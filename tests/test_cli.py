@@ -23,7 +23,8 @@ from roundoff import U
 
 from tdhf.constants import BOHR_ANGSTROM, HARTREE_EV, POLARIZABILITY_ANGSTROM3, POLARIZABILITY_SI, hartree_to_ev
 from tdhf.deck import parse_deck
-from tdhf.driver import RESPONSE_FIELDS, RunResult, result_to_json, run_deck
+from tdhf.driver import RESPONSE_FIELDS, RunResult, run_deck
+from tdhf.report.json_result import result_to_json
 from tdhf.report.serialize import to_jsonable, write_json
 from tdhf.report.terminal import ROW_TABLES, print_report, rows_table
 
@@ -33,9 +34,9 @@ HE_HF_LIMIT = -2.8616799956
 HE_ATOL = 1e-9
 
 HE_DECK = '[atom]\nelement = "He"\n'
-TOP_LEVEL_KEYS = ["atom", "ground_state", "warnings", "settings", "program", "conventions"]
+TOP_LEVEL_KEYS = ["atom", "ground_state", "warnings", "settings", "program", "conventions", "quantities"]
 ALL_KEYS = ["atom", "ground_state", *RESPONSE_FIELDS, "dispersion", "warnings", "rejected", "settings", "program",
-            "conventions"]
+            "conventions", "quantities"]
 
 
 # --- constants -------------------------------------------------------------------------------
@@ -136,7 +137,7 @@ def test_response_api_is_called_with_the_deck_section(monkeypatch):
     """Wiring only: a stand-in compute_response records its arguments and returns marked rows."""
     calls = []
 
-    def compute_response(ground_state, multipoles, frequencies, imaginary_frequencies, coupled, broadening):
+    def compute_response(ground_state, multipoles, frequencies, imaginary_frequencies, coupled, broadening, **options):
         calls.append((ground_state.system.name, multipoles, frequencies, imaginary_frequencies, coupled))
         return types.SimpleNamespace(**{name: [{"from": name}] for name in RESPONSE_FIELDS}, warnings=["note"],
                                      rejected=[])
@@ -272,7 +273,8 @@ def test_cli_response_options_build_the_response_section(tmp_path):
     assert "Traceback" not in run.stderr
     data = json.loads((tmp_path / "out.json").read_text())
     assert data["settings"]["response"] == {"multipoles": [1, 2], "frequencies": [0.0, 0.1],
-                                            "imaginary_frequencies": [0.5], "coupled": True, "broadening": 0.0}
+                                            "imaginary_frequencies": [0.5], "coupled": True, "broadening": 0.0,
+                                            "excitations": 0}
     assert all(name in data for name in RESPONSE_FIELDS) and "dispersion" not in data
     for warning in data["warnings"]:
         assert f"tdhf: warning: {warning}" in run.stderr.splitlines()
@@ -311,16 +313,21 @@ def test_cli_unexpected_error_exits_1_with_one_line(monkeypatch):
     assert "Traceback" in err.getvalue()
 
 
-def test_cli_frequency_above_first_excitation_exits_2_and_keeps_the_rest(tmp_path):
-    """A real frequency above the He 1P line (~0.797 hartree, self-regression) is refused, the others are written."""
-    run = tdhf("atom", "He", "--multipoles", "1", "--frequencies", "0", "0.9", "--json", "out.json", cwd=tmp_path)
+def test_cli_frequency_above_the_threshold_exits_2_and_keeps_the_rest(tmp_path):
+    """He: 0.9 hartree lies between the 1s4p and 1s5p 1P poles (below the 0.918 threshold) and is
+    computed with its neighbouring poles; 0.95 is above the threshold (continuum) and refused.
+    Pole positions are self-regression values of this code (tests/test_spectrum.py)."""
+    run = tdhf("atom", "He", "--multipoles", "1", "--frequencies", "0", "0.9", "0.95", "--json", "out.json",
+               cwd=tmp_path)
     assert run.returncode == 2
     assert "Traceback" not in run.stderr
     (error,) = [line for line in run.stderr.splitlines() if line.startswith("tdhf: error:")]
-    assert "response.frequencies[1]: 0.9 hartree is at or above the first dipole excitation (0.796974 hartree)" in error
+    assert "response.frequencies[2]: 0.95 hartree is at or above the ionization threshold (0.91795" in error
     data = json.loads((tmp_path / "out.json").read_text())
-    assert [row["frequency"] for row in data["polarizabilities"]] == [0.0]
-    assert data["rejected"] and data["rejected"][0].startswith("response.frequencies[1]")
+    rows = data["polarizabilities"]
+    assert [row["frequency"] for row in rows] == [0.0, 0.9]
+    assert rows[1]["pole_below"] < 0.9 < rows[1]["pole_above"] < 0.918
+    assert data["rejected"] and data["rejected"][0].startswith("response.frequencies[2]")
 
 
 def test_cli_certify_compares_every_number_on_a_finer_grid(tmp_path):

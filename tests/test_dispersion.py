@@ -32,7 +32,8 @@ import pytest
 from roundoff import U, gamma, resolvent_bound
 
 from tdhf.deck import parse_deck
-from tdhf.driver import result_to_json, run_deck
+from tdhf.driver import run_deck
+from tdhf.report.json_result import result_to_json
 from tdhf.errors import ConvergenceError, InputError
 from tdhf.ground_state import GroundState, solve_ground_state
 from tdhf.properties import dispersion
@@ -49,6 +50,7 @@ from tdhf.properties.dispersion import (
     write_polarizability_csv,
 )
 from tdhf.properties.spectrum import EIGEN_CUTOFF, rpa_eigen_excitations
+from tdhf.properties.sum_rules import energy_weighted_sum
 from tdhf.radial.mesh import GridSettings
 from tdhf.report.serialize import to_jsonable
 from tdhf.response.solver import ResponseSolver
@@ -299,19 +301,19 @@ def test_helium_c6_lies_a_few_per_cent_below_the_accurate_value(helium_neon):
 
 
 def rpa_spectra(state: GroundState) -> dict[int, tuple[np.ndarray, np.ndarray, float]]:
-    """Route-1 RPA lines (energies, strengths, missing strength above the cutoff) for L = 1, 2, 3."""
+    """Route-2 (truncated dense) RPA lines (energies, strengths, missing strength above the cutoff) for L = 1, 2, 3."""
     spectra = {}
     for L in (1, 2, 3):
         solver = ResponseSolver(state.grid, state.system.Z, state.shells, state.orbital_energies, L)
         energies, strengths = rpa_eigen_excitations(solver, cutoff=EIGEN_CUTOFF)
         keep = energies > 0.0
-        spectra[L] = (energies[keep], strengths[keep], solver.energy_weighted_sum() - strengths[keep].sum())
+        spectra[L] = (energies[keep], strengths[keep], energy_weighted_sum(solver) - strengths[keep].sum())
     return spectra
 
 
 def london_integral(a, b) -> tuple[float, float]:
     """(2/pi) int_0^inf alpha_A alpha_B dw = sum_nm f_n f_m / (w_n w_m (w_n + w_m)) (Casimir-Polder's
-    identity applied to the pole sums) over two route-1 spectra, with a bound on the lines above the
+    identity applied to the pole sums) over two route-2 (dense, truncated) spectra, with a bound on the lines above the
     cutoff: a missing strength F with energies >= cutoff adds <= F / cutoff^2 sum_m f_m / w_m."""
     (wa, fa, missing_a), (wb, fb, missing_b) = a, b
     value = float(fa @ (1.0 / (np.outer(wa, wb) * (wa[:, None] + wb[None, :]))) @ fb)
@@ -320,11 +322,11 @@ def london_integral(a, b) -> tuple[float, float]:
 
 
 def test_coefficients_equal_london_sums_over_the_rpa_spectra(helium, neon, helium_neon):
-    """C_2n by an independent route: the double sums over the discrete RPA spectra (route 1,
+    """C_2n by an independent route: the double sums over the discrete RPA spectra (route 2,
     cutoff 1e3) of both atoms, C_2n = sum_{lA+lB=n-1} (2lA+2lB)!/((2lA)!(2lB)!) (1/4) sum f f /
     (w w (w + w)), against the Casimir-Polder quadrature of alpha(i w) from the linear solves.
     Measured agreement <= 4e-10.  Tolerance: the quadrature error estimate of the row, the bound on
-    the lines above the cutoff, and route 1's squaring round-off, U cutoff^2 / w_1^2 relative for
+    the lines above the cutoff, and route 2's squaring round-off, U cutoff^2 / w_1^2 relative for
     each of the three energies in a term (the spectrum module docstring)."""
     spectra = {"He": rpa_spectra(helium), "Ne": rpa_spectra(neon)}
     for row in helium_neon.coefficients:
@@ -447,7 +449,7 @@ def test_json_form_has_the_documented_keys(helium_neon):
         ["pair", "C6", "C8", "C10", "C6_error", "C8_error", "C10_error", "converged"])
     assert data["coefficients"][1]["pair"] == ["He", "Ne"]
     assert sorted(data["polarizability_tables"][0]) == sorted(
-        ["system", "frequencies", "weights", "dipole", "quadrupole", "octupole"])
+        ["system", "frequencies", "weights", "dipole", "quadrupole", "octupole", "converged"])
 
 
 def test_driver_runs_a_dispersion_deck():

@@ -12,7 +12,7 @@ def test_public_names_are_pinned():
     assert sorted(tdhf.__all__) == sorted([
         "System", "GridSettings", "ScfSettings", "solve_ground_state", "GroundState", "OrbitalResult",
         "ResponseSolver", "compute_response", "lowest_excitations", "load_deck", "parse_deck", "run_deck",
-        "InputError", "ConvergenceError",
+        "InputError", "ConvergenceError", "certify",
     ])
     assert all(hasattr(tdhf, name) for name in tdhf.__all__)
 

@@ -36,10 +36,15 @@ from roundoff import KRYLOV_CONDITION, U, krylov_bound, response_tolerance
 
 from tdhf.ground_state import GroundState, solve_ground_state
 from tdhf.properties.spectrum import rpa_eigen_excitations
+from tdhf.properties.sum_rules import cauchy_moments, energy_weighted_sum
 from tdhf.radial.mesh import GridSettings
-from tdhf.response.solver import KRYLOV_TOLERANCE, ResponseSolver
+from tdhf.response.solver import ResponseSolver, ResponseTolerances
 from tdhf.scf import ScfSettings
 from tdhf.system import System
+
+KRYLOV_TOLERANCE = ResponseTolerances().krylov_tolerance
+#: Tolerances of solves whose last-bit noise a finite difference amplifies.
+TIGHT_SOLVE = ResponseTolerances(krylov_tolerance=1e-14)
 
 #: Our discretization error of static response properties at default settings, relative: alpha_1
 #: moves by 2e-12 (He), 1.2e-11 (Be), 1.5e-10 (Ne), 3.6e-10 (Ar) between GridSettings() and
@@ -347,7 +352,7 @@ def test_thomas_reiche_kuhn_sum_rule(request, atom):
     """Coupled (RPA) S(0) = N exactly (TDHF conserves the double-commutator sum rule)."""
     state = request.getfixturevalue(atom)
     solver = make_solver(state, 1)
-    value = solver.energy_weighted_sum(coupled=True)
+    value = energy_weighted_sum(solver, coupled=True)
     assert value == pytest.approx(state.system.electrons, rel=response_tolerance(solver), abs=0.0)
 
 
@@ -355,7 +360,7 @@ def test_thomas_reiche_kuhn_sum_rule(request, atom):
 def test_uncoupled_sum_rule_is_violated(request, atom):
     """Uncoupled S(0) != N: the nonlocal exchange in F does not commute with r (He: 2.908 vs 2)."""
     state = request.getfixturevalue(atom)
-    value = make_solver(state, 1).energy_weighted_sum(coupled=False)
+    value = energy_weighted_sum(make_solver(state, 1), coupled=False)
     assert abs(value / state.system.electrons - 1.0) > 1e-2
 
 
@@ -364,12 +369,8 @@ def test_quadrupole_energy_weighted_sum_rule(request, atom):
     """L = 2: S(0) = L sum_i <r_i^(2L-2)> = 2 <r^2>_total (double commutator of r^2 C_20 with T)."""
     state = request.getfixturevalue(atom)
     solver = make_solver(state, 2)
-    value = solver.energy_weighted_sum(coupled=True)
+    value = energy_weighted_sum(solver, coupled=True)
     assert value == pytest.approx(2.0 * state.mean_r_squared, rel=response_tolerance(solver), abs=0.0)
-
-
-#: Solver tolerance of the finite-difference solves: their last-bit noise is what the differences amplify.
-DIFFERENCE_KRYLOV_TOLERANCE = 1e-14
 
 
 def finite_difference_moments(solver: ResponseSolver, x: float) -> tuple[float, float, float, float]:
@@ -391,12 +392,12 @@ def finite_difference_moments(solver: ResponseSolver, x: float) -> tuple[float, 
 
     Returns S(-4), S(-6) and their relative error bounds.
     """
-    s2, s4, _ = solver.cauchy_moments()
+    (s2, s4, _), _ = cauchy_moments(solver)
     energies, strengths = rpa_eigen_excitations(solver)
     lowest = float(energies[strengths > 1e-10].min())
     scale = np.sqrt(s2 / s4)
     q = scale / lowest
-    solutions = [solver.solve(1j * nu if nu else 0.0, tolerance=DIFFERENCE_KRYLOV_TOLERANCE)
+    solutions = [solver.solve(1j * nu if nu else 0.0, tolerances=TIGHT_SOLVE)
                  for nu in (0.0, *(k * x * scale for k in (1, 2, 3)))]
     alphas = [float(np.real(solver.polarizability(solution))) for solution in solutions]
     nus = x * scale * np.arange(1.0, 4.0)
@@ -416,7 +417,7 @@ def test_cauchy_moments_against_imaginary_frequency_differences(request, atom):
     finite_difference_moments (x = 0.01: truncation ~1e-10 and ~1e-6, the noise below them).
     The moments' own round-off (response_tolerance) is added."""
     solver = make_solver(request.getfixturevalue(atom), 1)
-    _, s4, s6 = solver.cauchy_moments()
+    (_, s4, s6), _ = cauchy_moments(solver)
     fourth, sixth, bound_fourth, bound_sixth = finite_difference_moments(solver, 0.01)
     own = response_tolerance(solver, 0.0, solver.solve(0.0))
     assert abs(fourth / s4 - 1) <= bound_fourth + own
@@ -427,7 +428,7 @@ def test_hydrogen_cauchy_moments_exact(hydrogen):
     """H: S(-4) = 319/12 and S(-6) = 297541/1728 (exact rationals; S(-6) from the Taylor series of
     the Sturmian reference, identified as a rational with denominator 1728 = 12^3)."""
     solver = make_solver(hydrogen, 1)
-    s2, s4, s6 = solver.cauchy_moments()
+    (s2, s4, s6), _ = cauchy_moments(solver)
     assert (s2, s4, s6) == pytest.approx((4.5, 319.0 / 12.0, 297541.0 / 1728.0), rel=response_tolerance(solver), abs=0.0)
     with mp.workdps(STURMIAN_DPS):
         taylor = mp.taylor(lambda w: sturmian_polarizability(1, w, size=20), 0, 4)
@@ -437,11 +438,11 @@ def test_hydrogen_cauchy_moments_exact(hydrogen):
 @pytest.mark.parametrize("atom", ["helium", "neon"])
 def test_large_imaginary_frequency_tail_against_the_rpa_spectrum(request, atom):
     """nu^2 alpha(i nu) at nu = 100 Z^2 .. 1e4 Z^2 (the tail, where the deficit N - nu^2 alpha falls
-    roughly as S(2)/nu^2) against the same quantity from the complete route-1 RPA spectrum,
+    roughly as S(2)/nu^2) against the same quantity from the complete route-2 RPA spectrum (dense),
     sum_n f_n nu^2 / (w_n^2 + nu^2) (cutoff 1e9: every particle-hole pair of the grid): an
     eigenproblem against the GMRES solve.
 
-    Round-off of route 1 (derived): the eigen-decomposition of M (eigenvalues up to w_max^2) has a
+    Round-off of route 2 (derived): the eigen-decomposition of M (eigenvalues up to w_max^2) has a
     backward error ~U w_max^2, which moves sum f g(w^2) with |g'| <= 1/nu^2 by <= U w_max^2 N / nu^2;
     the solve side is response_tolerance at i nu."""
     state = request.getfixturevalue(atom)
@@ -636,7 +637,7 @@ def test_complex_frequency_absorption_sign_and_real_limit(helium):
     solver = make_solver(helium, 1)
 
     def alpha(frequency: complex) -> complex:
-        return complex(solver.polarizability(solver.solve(frequency, tolerance=1e-14)))
+        return complex(solver.polarizability(solver.solve(frequency, tolerances=TIGHT_SOLVE)))
 
     w = 0.4
     real_value = alpha(w)
@@ -666,7 +667,7 @@ def test_grid_convergence_neon(neon):
         static_polarizability_and_tolerance(state) for state in (neon, tight))
     assert tight_alpha == pytest.approx(default_alpha, rel=GRID_RTOL + default_tolerance + tight_tolerance, abs=0.0)
     tight_solver = make_solver(tight, 1)
-    assert tight_solver.energy_weighted_sum() == pytest.approx(10.0, rel=response_tolerance(tight_solver), abs=0.0)
+    assert energy_weighted_sum(tight_solver) == pytest.approx(10.0, rel=response_tolerance(tight_solver), abs=0.0)
 
 
 def test_coupled_solve_reaches_krylov_tolerance(argon):
@@ -717,3 +718,24 @@ def test_fixed_small_box_near_a_resonance_is_reported(helium):
     small = solve_ground_state(System.from_input("He"), GridSettings(r_max=30.0), ScfSettings())
     results = compute_response(small, (1,), (0.796,), ())
     assert any(note.startswith("grid.r_max: the dipole response at 0.796 hartree has not decayed") for note in results.warnings)
+
+
+@pytest.mark.parametrize(
+    "arguments, key",
+    [
+        (dict(frequencies=(), imaginary_frequencies=(-1.0,)), "response.imaginary_frequencies[0]"),
+        (dict(frequencies=(), imaginary_frequencies=(float("nan"),)), "response.imaginary_frequencies[0]"),
+        (dict(frequencies=(), imaginary_frequencies=(1e155,)), "response.imaginary_frequencies[0]"),
+        (dict(frequencies=(0.1,), broadening=-0.1), "response.broadening"),
+        (dict(frequencies=(0.1,), broadening=float("nan")), "response.broadening"),
+    ],
+    ids=["negative-imaginary", "nan-imaginary", "huge-imaginary", "negative-broadening", "nan-broadening"],
+)
+def test_compute_response_validates_imaginary_frequencies_and_broadening(helium, arguments, key):
+    """The library validates its own inputs (as tests/test_trust.py checks for real frequencies):
+    an InputError naming the argument, never a number (common practice, no source)."""
+    from tdhf.errors import InputError
+    from tdhf.properties.response_properties import compute_response
+
+    with pytest.raises(InputError, match=key.replace(".", r"\.").replace("[", r"\[").replace("]", r"\]")):
+        compute_response(helium, (1,), **arguments)

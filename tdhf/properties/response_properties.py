@@ -1,24 +1,28 @@
 """Response properties of one atom: polarizabilities, shielding factors, sum rules, excitations.
 
-Conventions (atomic units throughout):
+Conventions are those of :mod:`tdhf.properties.polarizability` (alpha_L, beta, gamma_inf),
+:mod:`tdhf.properties.sum_rules` (S_L(k)) and :mod:`tdhf.properties.spectrum` (lines, f).
 
-* multipole polarizability :math:`\\alpha_L(\\omega) = 2\\sum_n \\omega_n
-  |\\langle 0|\\sum_i r_i^L C_{L0}(\\hat r_i)|n\\rangle|^2 / (\\omega_n^2 - \\omega^2)`, with
-  :math:`C_{L0} = P_L(\\cos\\theta)`; hydrogen: 9/2, 15, 131.25 for L = 1, 2, 3;
-* dipole shielding :math:`\\beta(\\omega)`: field at the nucleus from the induced density per unit
-  applied field, :math:`\\beta = -\\int \\delta n_1\\, C_{10}/r^2\\,d^3r`; acceleration-form identity
-  :math:`\\beta(\\omega) = (N + \\omega^2 \\alpha_1(\\omega))/Z`, so :math:`\\beta(0) = N/Z`;
-* quadrupole shielding :math:`\\gamma_\\infty = -\\int \\delta n_2\\, C_{20}/r^3\\,d^3r` (field gradient
-  at the nucleus is :math:`(1 - \\gamma_\\infty)` times the applied one; antishielding is negative);
-* sum rules :math:`S_L(k) = \\sum_n \\omega_n^k f_n` with :math:`f_n = 2\\omega_n
-  |\\langle n|\\sum_i r_i^L C_{L0}|0\\rangle|^2`; :math:`S_1(0) = N` (Thomas–Reiche–Kuhn) and in
-  general :math:`S_L(0) = L \\sum_i \\langle r_i^{2L-2}\\rangle`, exact in RPA;
-  :math:`S_L(-2) = \\alpha_L(0)`.
+Real frequencies
+----------------
+Between bound poles alpha(omega) is real and finite: every real frequency below the ionization
+threshold is computed unless it lies on an excitation (within :data:`RESONANCE_MARGIN` relative),
+and the row names the poles on either side (``pole_below``, ``pole_above``).  A frequency on a
+pole, or at or above the threshold (the continuum), is refused: an entry in
+``ResponseResults.rejected`` naming the key, the pole or threshold and the nearest allowed
+frequencies, while the other frequencies are still computed.  With a broadening eta > 0 every
+frequency is computed at omega + i eta.
 
-A real frequency at or above the first excitation of its multipole has no real polarizability:
-it is rejected (an entry in ``ResponseResults.rejected``) unless a broadening is given, while the
-other frequencies are still computed.  Near an excitation the first-order orbitals become diffuse:
-the box is enlarged automatically (ground state re-solved) until they have decayed at the wall.
+Boxes
+-----
+Near an excitation the first-order orbitals become diffuse, and Rydberg lines extend far out:
+an automatic box is enlarged (ground state re-solved, x1.5 per step up to
+:data:`MAX_BOX_RADIUS`) until the response at every real frequency and every listed line has
+decayed at the wall (:data:`BOUNDARY_FRACTION`); a box the user fixed is kept, with a note.
+Lines that still do not fit are not listed (a note says so).
+
+Non-convergence policy (:mod:`tdhf.numerics.status`): every row carries ``converged``; a failed
+solve adds a one-line note to ``warnings``; nothing is raised for non-convergence.
 """
 
 from __future__ import annotations
@@ -30,16 +34,20 @@ from typing import Sequence
 
 import numpy as np
 
+from tdhf.errors import FrequencyError, InputError
 from tdhf.ground_state import GroundState, solve_ground_state
+from tdhf.numerics.status import combine
 from tdhf.numerics.threads import single_blas_thread
+from tdhf.properties.polarizability import DipoleShielding, Polarizability, QuadrupoleShielding, VelocityForm
 from tdhf.properties.spectrum import (
     Excitation,
+    Spectrum,
     StrengthDistribution,
-    lowest_excitations,
-    rpa_eigen_excitations,
+    rpa_spectrum,
     strength_distribution,
 )
-from tdhf.response.solver import FirstOrderOrbitals, ResponseSolver
+from tdhf.properties.sum_rules import SumRule, cauchy_moments, energy_weighted_sum, exact_energy_weighted_sum
+from tdhf.response.solver import FirstOrderOrbitals, ResponseSolver, ResponseTolerances
 
 __all__ = [
     "Polarizability",
@@ -49,6 +57,7 @@ __all__ = [
     "ResponseResults",
     "compute_response",
     "NORMALIZATION",
+    "MAX_FREQUENCY",
 ]
 
 logger = logging.getLogger(__name__)
@@ -59,66 +68,18 @@ NORMALIZATION = "alpha_L = 2 sum_n |<0|sum_i r_i^L P_L(cos theta_i)|n>|^2 / (E_n
 #: alpha moves by < 1e-9 relative between boxes of 40 and 150 bohr even with fractions up to 1e-3
 #: (Ca, L = 3); the test catches responses that really reach the wall, as next to a resonance.
 BOUNDARY_FRACTION = 1e-6
-#: Relative residual above which a coupled solve counts as not converged.
-COUPLING_RESIDUAL = 1e-8
 #: Frequencies within this relative distance of an excitation are treated as on it.
 RESONANCE_MARGIN = 1e-6
+#: Closer than this (relative) to a pole, a note says how the error grows there.
+NEAR_POLE = 1e-3
+#: The largest box an automatic enlargement goes to (bohr), and its growth per step.
+MAX_BOX_RADIUS = 400.0
+BOX_GROWTH = 1.5
+#: Largest frequency accepted (hartree): far beyond every physical scale, and alpha(i nu) ~ N/nu^2
+#: stays a normal double (nu^2 < 1e308).
+MAX_FREQUENCY = 1e100
 
-
-@dataclass(frozen=True)
-class Polarizability:
-    """alpha_L at one frequency (bohr^(2L+1)); ``frequency`` is nu for ``imaginary`` (omega = i nu).
-
-    With ``broadening`` eta > 0 the frequency is omega + i eta and the imaginary parts are
-    non-zero; otherwise they are 0.  ``uncoupled`` is None above the first uncoupled pole.
-    ``velocity_form`` is the coupled dipole value from the velocity-gauge perturbation (equal to
-    ``coupled`` in a complete basis, so their difference measures the grid; None for L > 1).
-    """
-
-    multipole: int
-    frequency: float
-    imaginary: bool
-    coupled: float
-    uncoupled: float | None
-    broadening: float = 0.0
-    coupled_imaginary_part: float = 0.0
-    uncoupled_imaginary_part: float = 0.0
-    converged: bool = True
-    krylov_iterations: int = 0
-    r_max: float = 0.0
-    velocity_form: float | None = None
-
-
-@dataclass(frozen=True)
-class DipoleShielding:
-    """beta at one frequency: from the induced density (``direct``) and from (N + w^2 alpha)/Z."""
-
-    frequency: float
-    imaginary: bool
-    direct: float
-    from_polarizability: float
-    difference: float
-
-
-@dataclass(frozen=True)
-class QuadrupoleShielding:
-    """Sternheimer-type gamma_inf at one real or imaginary frequency, coupled and uncoupled."""
-
-    frequency: float
-    imaginary: bool
-    coupled: float
-    uncoupled: float | None
-
-
-@dataclass(frozen=True)
-class SumRule:
-    """S_L(k) coupled (``value``) and uncoupled; ``exact`` is the RPA identity where one exists."""
-
-    multipole: int
-    k: int
-    value: float
-    uncoupled: float
-    exact: float | None
+_NAMES = {1: "dipole", 2: "quadrupole", 3: "octupole"}
 
 
 @dataclass(frozen=True)
@@ -134,41 +95,6 @@ class ResponseResults:
     warnings: tuple[str, ...]
     rejected: tuple[str, ...]
     normalization: str = NORMALIZATION
-
-
-@single_blas_thread
-def compute_response(
-    ground_state: GroundState,
-    multipoles: Sequence[int] = (1,),
-    frequencies: Sequence[float] = (0.0,),
-    imaginary_frequencies: Sequence[float] = (),
-    coupled: bool = True,
-    broadening: float = 0.0,
-    excitation_count: int = 3,
-) -> ResponseResults:
-    """Polarizabilities, shielding factors, sum rules and excitations of a solved atom.
-
-    The ground state is reused for all frequencies of a multipole (one solver per L); it is only
-    re-solved in a larger box when the first-order orbitals at a real frequency reach the wall.
-    With ``coupled=False`` the "coupled" columns also hold the uncoupled values.
-    """
-    collected = _Collected(boxes={ground_state.r_max: ground_state})
-    for L in multipoles:
-        _one_multipole(ground_state, L, frequencies, imaginary_frequencies, coupled, broadening, excitation_count,
-                       collected)
-    return ResponseResults(
-        polarizabilities=tuple(collected.polarizabilities),
-        shielding=tuple(collected.shielding),
-        quadrupole_shielding=tuple(collected.quadrupole_shielding),
-        sum_rules=tuple(collected.sum_rules),
-        excitations=tuple(collected.excitations),
-        strength_distribution=tuple(collected.strength_distribution),
-        warnings=tuple(collected.warnings),
-        rejected=tuple(collected.rejected),
-    )
-
-
-_NAMES = {1: "dipole", 2: "quadrupole", 3: "octupole"}
 
 
 @dataclass
@@ -187,123 +113,262 @@ class _Collected:
 
 
 @dataclass(frozen=True)
-class _Spectrum:
-    """The route-1 spectrum of one solver and the limits it sets on real frequencies."""
+class _Request:
+    """The options of one compute_response call, shared by every multipole."""
 
-    eigen: tuple[np.ndarray, np.ndarray]
-    excitations: tuple[Excitation, ...]
-    first: float  # lowest excitation or the ionization threshold, whichever is lower (hartree)
-    first_label: str
-    first_uncoupled: float  # lowest pole of the uncoupled response (hartree)
+    frequencies: tuple[float, ...]
+    imaginary_frequencies: tuple[float, ...]
+    coupled: bool
+    broadening: float
+    excitation_count: int
+    tolerances: ResponseTolerances
+    eigen_tolerance: float
+
+
+def _check_frequencies(name: str, values: Sequence[float]) -> tuple[float, ...]:
+    out = []
+    for i, value in enumerate(values):
+        if isinstance(value, bool) or not isinstance(value, (int, float, np.integer, np.floating)):
+            raise FrequencyError(f"response.{name}[{i}]: {value!r} is not a number; frequencies are in hartree")
+        value = float(value)
+        if not math.isfinite(value) or value < 0.0:
+            raise FrequencyError(f"response.{name}[{i}]: {value!r} must be finite and >= 0 (hartree)")
+        if value > MAX_FREQUENCY:
+            raise FrequencyError(f"response.{name}[{i}]: {value:g} hartree is above the largest accepted"
+                                 f" frequency {MAX_FREQUENCY:g}; alpha is N/nu^2 to all digits long before")
+        out.append(value)
+    return tuple(out)
+
+
+@single_blas_thread
+def compute_response(
+    ground_state: GroundState,
+    multipoles: Sequence[int] = (1,),
+    frequencies: Sequence[float] = (0.0,),
+    imaginary_frequencies: Sequence[float] = (),
+    coupled: bool = True,
+    broadening: float = 0.0,
+    excitation_count: int = 0,
+    tolerances: ResponseTolerances = ResponseTolerances(),
+    eigen_tolerance: float = 1e-10,
+) -> ResponseResults:
+    """Polarizabilities, shielding factors, sum rules and (if asked) excitations of a solved atom.
+
+    Parameters
+    ----------
+    ground_state : GroundState
+        A converged ground state; it is reused for every frequency of a multipole and only
+        re-solved in a larger box when the response or a listed line reaches the wall.
+    multipoles : sequence of int
+        L = 1, 2, 3 ...
+    frequencies, imaginary_frequencies : sequence of float
+        Real frequencies omega and imaginary ones nu (omega = i nu), hartree, finite and >= 0.
+    coupled : bool
+        False: the "coupled" columns hold the uncoupled values too.
+    broadening : float
+        eta >= 0 hartree: real frequencies become omega + i eta.
+    excitation_count : int
+        Lowest bound lines listed per multipole (0: none); with lines the S(0) split is reported.
+    tolerances : ResponseTolerances
+    eigen_tolerance : float
+        Residual of the RPA eigensolver.
+
+    Raises
+    ------
+    InputError
+        For an invalid multipole, frequency, broadening or count (before anything is computed).
+    """
+    for i, L in enumerate(multipoles):
+        if isinstance(L, bool) or not isinstance(L, (int, np.integer)) or not 1 <= L <= 10:
+            raise InputError(f"response.multipoles[{i}]: {L!r} is not an integer in 1..10")
+    if not math.isfinite(broadening) or not 0.0 <= broadening <= 1.0:
+        raise InputError(f"response.broadening: {broadening!r} hartree must be in [0, 1]")
+    if isinstance(excitation_count, bool) or not isinstance(excitation_count, (int, np.integer)) or not 0 <= excitation_count <= 100:
+        raise InputError(f"response.excitations: {excitation_count!r} is not an integer in 0..100")
+    if not ground_state.converged:
+        raise InputError(f"response: the ground state of {ground_state.system.name} did not converge; no response from it")
+    request = _Request(_check_frequencies("frequencies", frequencies),
+                       _check_frequencies("imaginary_frequencies", imaginary_frequencies),
+                       bool(coupled), float(broadening), int(excitation_count), tolerances, float(eigen_tolerance))
+    collected = _Collected(boxes={ground_state.r_max: ground_state})
+    for L in multipoles:
+        _one_multipole(ground_state, int(L), request, collected)
+    return ResponseResults(
+        polarizabilities=tuple(collected.polarizabilities),
+        shielding=tuple(collected.shielding),
+        quadrupole_shielding=tuple(collected.quadrupole_shielding),
+        sum_rules=tuple(collected.sum_rules),
+        excitations=tuple(collected.excitations),
+        strength_distribution=tuple(collected.strength_distribution),
+        warnings=tuple(collected.warnings),
+        rejected=tuple(collected.rejected),
+    )
 
 
 def _solver(state: GroundState, L: int) -> ResponseSolver:
     return ResponseSolver(state.grid, state.system.Z, state.shells, state.orbital_energies, L)
 
 
-def _spectrum(solver: ResponseSolver, name: str, coupled: bool, count: int) -> _Spectrum:
-    eigen = rpa_eigen_excitations(solver, coupled=coupled)
-    excitations = lowest_excitations(solver, count=count, coupled=coupled, eigen=eigen)
-    # Above the ionization threshold the spectrum is continuous: no real alpha there either.
-    threshold = solver.ionization_threshold
-    first = min(excitations[0].energy if excitations else math.inf, threshold)
-    label = f"first {name} excitation" if first < threshold else "ionization threshold (onset of the continuum)"
-    first_uncoupled = min(
-        float(values[virtual].min() - solver.orbital_energies[c.shell])
-        for c in solver.channels
-        for values, _, virtual in [solver.spectra[c.l_prime]]
-    )
-    return _Spectrum(eigen, excitations, first, label, first_uncoupled)
-
-
 def _boundary_fraction(solver: ResponseSolver, first_order: FirstOrderOrbitals) -> float:
     """Largest |rho(r)| beyond 0.75 R relative to the largest |rho| anywhere."""
     values = np.abs(np.concatenate([first_order.plus, first_order.minus])) / np.sqrt(solver.grid.weights)
     outer = solver.grid.r > 0.75 * solver.grid.r_max
-    return float(values[:, outer].max() / values.max()) if outer.any() else 0.0
+    peak = values.max()
+    return float(values[:, outer].max() / peak) if outer.any() and peak > 0.0 else 0.0
 
 
-def _adequate_box(state: GroundState, solver: ResponseSolver, name: str, omega: float, coupled: bool,
-                  notes: list[str], boxes: dict[float, GroundState]) -> tuple[GroundState, ResponseSolver]:
-    """Enlarge an automatic box (re-solving the ground state) until the response at omega has decayed.
+@dataclass
+class _Multipole:
+    """The state of one multipole's computation: box, solver, spectrum, and the real-frequency verdicts."""
 
-    A box the user fixed (``grid.r_max``) is kept, with a note if it is too small.
-    """
+    state: GroundState
+    solver: ResponseSolver
+    spectrum: Spectrum | None
+    allowed: list[tuple[int, float]]
+    refused: list[str]
+
+
+def _classify(L: int, solver: ResponseSolver, spectrum: Spectrum | None, request: _Request) -> tuple[list, list]:
+    """Real frequencies that can be computed (index, omega) and refusal messages for the others."""
+    if request.broadening > 0.0:
+        return list(enumerate(request.frequencies)), []
+    name = _NAMES.get(L, f"2^{L}-pole")
+    threshold = solver.ionization_threshold
+    allowed, refused = [], []
+    for i, omega in enumerate(request.frequencies):
+        key = f"response.frequencies[{i}]"
+        if omega >= threshold * (1.0 - RESONANCE_MARGIN):
+            refused.append(
+                f"{key}: {omega:g} hartree is at or above the ionization threshold ({threshold:.8f} hartree,"
+                f" -epsilon of the outermost orbital): the {name} response is a continuum there; give a real"
+                " frequency below it, an imaginary frequency or a broadening"
+            )
+            continue
+        if omega > 0.0 and spectrum is not None:
+            below, above = spectrum.poles_around(omega)
+            for pole in (below, above):
+                if pole is not None and abs(omega - pole) <= RESONANCE_MARGIN * pole:
+                    low, high = pole * (1.0 - 1e3 * RESONANCE_MARGIN), pole * (1.0 + 1e3 * RESONANCE_MARGIN)
+                    refused.append(
+                        f"{key}: {omega:g} hartree is at the {name} excitation at {pole:.10f} hartree, where alpha"
+                        f" diverges; choose a frequency away from it, e.g. {low:.6f} or {high:.6f}"
+                    )
+                    break
+            else:
+                allowed.append((i, omega))
+            continue
+        allowed.append((i, omega))
+    return allowed, refused
+
+
+def _one_multipole(ground_state: GroundState, L: int, request: _Request, out: _Collected) -> None:
+    name = _NAMES.get(L, f"2^{L}-pole")
+    work = _settle_box(ground_state, L, request, out)
+    state, solver, spectrum = work.state, work.solver, work.spectrum
+    out.rejected.extend(work.refused)
+    if spectrum is not None and not spectrum.status.converged:
+        out.warnings.append(f"response: the {name} RPA eigensolver of {state.system.name} did not converge"
+                            f" ({spectrum.status.describe()}); its poles and lines are not reliable")
+    if request.excitation_count and spectrum is not None:
+        lines = spectrum.lines(request.excitation_count)
+        out.excitations.extend(lines)
+        if len(lines) < request.excitation_count:
+            reason = ("the next one does not fit in the box" if spectrum.squeezed(request.excitation_count)
+                      else "there are no more visible bound lines below the ionization threshold")
+            out.warnings.append(
+                f"response: {len(lines)} of {request.excitation_count} {name} lines of {state.system.name}"
+                f" listed: {reason} (r_max {state.r_max:g} bohr)"
+            )
+    velocity = VelocityForm(solver, request.tolerances) if L == 1 else None
+    rows = [(omega, False) for _, omega in work.allowed] + [(nu, True) for nu in request.imaginary_frequencies]
+    for omega, imaginary in rows:
+        _frequency_rows(state, solver, name, omega, imaginary, request, spectrum, velocity, out)
+    _sum_rules(state, solver, name, request, spectrum, out)
+
+
+def _settle_box(ground_state: GroundState, L: int, request: _Request, out: _Collected) -> _Multipole:
+    """Enlarge an automatic box until the real-frequency responses and the listed lines have decayed at the wall."""
+    name = _NAMES.get(L, f"2^{L}-pole")
+    state = ground_state
     automatic = state.grid_settings.r_max is None
-    for _ in range(3):
-        fraction = _boundary_fraction(solver, solver.solve(omega, coupled))
-        if fraction <= BOUNDARY_FRACTION:
+    wants_spectrum = request.excitation_count > 0 or (request.broadening == 0.0 and any(request.frequencies))
+    while True:
+        solver = _solver(state, L)
+        spectrum = (rpa_spectrum(solver, minimum_roots=max(request.excitation_count, 1), coupled=request.coupled,
+                                 tolerance=request.eigen_tolerance) if wants_spectrum else None)
+        allowed, refused = _classify(L, solver, spectrum, request)
+        problems = []
+        if request.excitation_count and spectrum is not None and spectrum.squeezed(request.excitation_count):
+            problems.append(f"the {name} lines do not fit in the box")
+        if request.broadening == 0.0:
+            for _, omega in allowed:
+                fraction = _boundary_fraction(solver, solver.solve(omega, request.coupled, tolerances=request.tolerances))
+                if fraction > BOUNDARY_FRACTION:
+                    problems.append(f"the {name} response at {omega:g} hartree has not decayed at the wall"
+                                    f" (|rho| reaches {fraction:.1e} of its maximum beyond 0.75 R)")
+                    break
+        if not problems:
             break
         if not automatic:
-            notes.append(
-                f"grid.r_max: the {name} response at {omega:g} hartree has not decayed at the wall"
-                f" (|rho| reaches {fraction:.1e} of its maximum beyond 0.75 R); increase r_max or leave it out"
-            )
+            out.warnings.append(f"grid.r_max: {problems[0]}; increase r_max or leave it out for an automatic box")
             break
-        r_max = 1.5 * state.r_max
-        logger.info("%s response at %g: box enlarged to %.0f bohr", name, omega, r_max)
-        if r_max not in boxes:
+        r_max = BOX_GROWTH * state.r_max
+        if r_max > MAX_BOX_RADIUS:
+            out.warnings.append(f"response: {problems[0]} even at r_max = {state.r_max:g} bohr, the largest"
+                                " automatic box; the affected numbers carry that box error")
+            break
+        logger.info("%s: box enlarged to %.0f bohr (%s)", name, r_max, problems[0])
+        if r_max not in out.boxes:
             bigger = replace(state.grid_settings, r_max=r_max)
-            boxes[r_max] = solve_ground_state(state.system, bigger, state.scf_settings)
-        state = boxes[r_max]
-        solver = _solver(state, solver.multipole)
-    return state, solver
+            out.boxes[r_max] = solve_ground_state(state.system, bigger, state.scf_settings)
+        state = out.boxes[r_max]
+        if not state.converged:
+            out.warnings.append(f"response: the ground state in the {r_max:g}-bohr box did not converge")
+            break
+    return _Multipole(state, solver, spectrum, allowed, refused)
 
 
-def _one_multipole(state, L, frequencies, imaginary_frequencies, coupled, broadening, count, out: _Collected):
-    name = _NAMES.get(L, f"2^{L}-pole")
-    solver = _solver(state, L)
-    spectrum = _spectrum(solver, name, coupled, count)
-    allowed = []
-    for i, omega in enumerate(frequencies):
-        if broadening == 0.0 and omega >= spectrum.first * (1.0 - RESONANCE_MARGIN):
-            out.rejected.append(
-                f"response.frequencies[{i}]: {omega:g} hartree is at or above the {spectrum.first_label}"
-                f" ({spectrum.first:.6f} hartree); a real alpha exists only below it: use imaginary_frequencies"
-                " or a broadening"
-            )
-        else:
-            allowed.append(float(omega))
-    if allowed and broadening == 0.0:
-        # The real frequency closest to resonance has the most diffuse response.
-        state, enlarged = _adequate_box(state, solver, name, max(allowed), coupled, out.warnings, out.boxes)
-        if enlarged is not solver:
-            solver = enlarged
-            spectrum = _spectrum(solver, name, coupled, count)  # every number from the same box
-    out.excitations.extend(spectrum.excitations)
-    if not spectrum.excitations:
-        out.warnings.append(
-            f"response: {state.system.name} has no bound {name} excitation below the ionization threshold"
-            f" ({spectrum.first:.6f} hartree); the {name} spectrum is a continuum there"
-        )
-    for omega, imaginary in [(w, False) for w in allowed] + [(float(nu), True) for nu in imaginary_frequencies]:
-        _frequency_rows(state, solver, name, omega, imaginary, coupled, broadening, spectrum, out)
-    moments_coupled = (solver.energy_weighted_sum(coupled),) + solver.cauchy_moments(coupled)
-    moments_uncoupled = (solver.energy_weighted_sum(False),) + solver.cauchy_moments(False)
-    shells = state.shells
-    exact_trk = float(L * shells.occupations @ (shells.orbitals**2 @ state.grid.r ** (2 * L - 2)))
-    out.strength_distribution.append(strength_distribution(solver, spectrum.eigen, float(moments_coupled[0])))
-    for k, value, uncoupled in zip((0, -2, -4, -6), moments_coupled, moments_uncoupled):
-        out.sum_rules.append(SumRule(L, k, float(value), float(uncoupled), exact_trk if k == 0 else None))
-
-
-def _frequency_rows(state, solver, name, omega, imaginary, coupled, broadening, spectrum: _Spectrum, out: _Collected):
+def _frequency_rows(state, solver, name, omega, imaginary, request: _Request, spectrum, velocity, out: _Collected):
     """alpha (and beta for L = 1, gamma_inf for L = 2) at one real, imaginary or broadened frequency."""
     L = solver.multipole
-    argument = complex(omega, broadening) if not imaginary and broadening else (1j * omega if imaginary else omega)
-    coupled_solution = solver.solve(argument, coupled)
-    uncoupled_solution = solver.solve(argument, False)
+    broadened = request.broadening > 0.0 and not imaginary
+    argument = complex(omega, request.broadening) if broadened else (1j * omega if imaginary else omega)
+    tolerances = request.tolerances
+    coupled_solution = solver.solve(argument, request.coupled, tolerances=tolerances)
+    uncoupled_solution = coupled_solution if not request.coupled else solver.solve(argument, False)
     alpha = complex(solver.polarizability(coupled_solution))
     alpha_uncoupled = complex(solver.polarizability(uncoupled_solution))
-    uncoupled_valid = imaginary or broadening > 0.0 or omega < spectrum.first_uncoupled * (1.0 - RESONANCE_MARGIN)
-    converged = coupled_solution.residual <= COUPLING_RESIDUAL
-    if not converged:
-        out.warnings.append(
-            f"response: coupled {name} solve at {omega:g} hartree{' (imaginary)' if imaginary else ''} stopped"
-            f" at relative residual {coupled_solution.residual:.1e} after {coupled_solution.krylov_iterations}"
-            " Krylov steps (GMRES); the value is not converged"
-        )
-    broadened = broadening > 0.0 and not imaginary
+    where = f"{omega:g} hartree{' (imaginary)' if imaginary else ''}"
+    method = coupled_solution.status.message if coupled_solution.status.message == "asymptotic series" else (
+        "krylov" if request.coupled and solver.interacting else "direct")
+    velocity_value = None
+    if velocity is not None and not broadened and method != "asymptotic series":
+        value, status = velocity.polarizability(argument)
+        if status.converged:
+            velocity_value = float(value.real if isinstance(value, complex) else value)
+        else:
+            out.warnings.append(f"response: the velocity-form {name} solve at {where} did not converge"
+                                f" ({status.describe()}); velocity_form is left out")
+    pole_below = pole_above = None
+    uncoupled_valid = True
+    if not imaginary and not broadened:
+        if spectrum is not None:
+            pole_below, pole_above = spectrum.poles_around(omega)
+            nearest = min((p for p in (pole_below, pole_above) if p is not None), key=lambda p: abs(p - omega),
+                          default=None)
+            if nearest is not None and abs(nearest - omega) < NEAR_POLE * nearest:
+                out.warnings.append(
+                    f"response: {name} alpha at {omega:g} hartree lies {abs(nearest - omega):.2e} hartree from the"
+                    f" excitation at {nearest:.8f}; its error grows as 1/|omega - omega_n| there (see the certificate)"
+                )
+        uncoupled_poles = solver.uncoupled_poles()
+        nearest_uncoupled = uncoupled_poles[np.argmin(np.abs(uncoupled_poles - omega))]
+        uncoupled_valid = abs(nearest_uncoupled - omega) > RESONANCE_MARGIN * nearest_uncoupled
+    status = coupled_solution.status
+    if not status.converged:
+        out.warnings.append(f"response: the coupled {name} solve at {where} did not converge ({status.describe()});"
+                            " the value is flagged")
+    finite = all(math.isfinite(x) for x in (alpha.real, alpha.imag))
     out.polarizabilities.append(
         Polarizability(
             multipole=L,
@@ -311,13 +376,17 @@ def _frequency_rows(state, solver, name, omega, imaginary, coupled, broadening, 
             imaginary=imaginary,
             coupled=alpha.real,
             uncoupled=alpha_uncoupled.real if uncoupled_valid else None,
-            broadening=broadening if broadened else 0.0,
+            broadening=request.broadening if broadened else 0.0,
             coupled_imaginary_part=alpha.imag if broadened else 0.0,
-            uncoupled_imaginary_part=alpha_uncoupled.imag if broadened else 0.0,
-            converged=converged,
-            krylov_iterations=coupled_solution.krylov_iterations,
+            uncoupled_imaginary_part=alpha_uncoupled.imag if broadened and uncoupled_valid else 0.0,
+            converged=status.converged and finite,
+            krylov_iterations=status.iterations,
             r_max=state.r_max,
-            velocity_form=complex(solver.velocity_polarizability(argument, coupled)).real if L == 1 and not broadened else None,
+            velocity_form=velocity_value,
+            residual=status.residual,
+            pole_below=pole_below,
+            pole_above=pole_above,
+            method=method,
         )
     )
     if broadened:
@@ -325,10 +394,27 @@ def _frequency_rows(state, solver, name, omega, imaginary, coupled, broadening, 
     if L == 1:
         direct = -complex(solver.expectation(coupled_solution, state.grid.r**-2.0)).real
         identity = (state.system.electrons + (-omega**2 if imaginary else omega**2) * alpha.real) / state.system.Z
-        out.shielding.append(DipoleShielding(omega, imaginary, direct, identity, direct - identity))
+        out.shielding.append(DipoleShielding(omega, imaginary, direct, identity, direct - identity, status.converged))
     if L == 2:
         gamma = -complex(solver.expectation(coupled_solution, state.grid.r**-3.0)).real
         gamma_uncoupled = -complex(solver.expectation(uncoupled_solution, state.grid.r**-3.0)).real
         out.quadrupole_shielding.append(
-            QuadrupoleShielding(omega, imaginary, gamma, gamma_uncoupled if uncoupled_valid else None)
+            QuadrupoleShielding(omega, imaginary, gamma, gamma_uncoupled if uncoupled_valid else None, status.converged)
         )
+
+
+def _sum_rules(state, solver, name, request: _Request, spectrum, out: _Collected) -> None:
+    L = solver.multipole
+    s0_coupled = energy_weighted_sum(solver, request.coupled)
+    s0_uncoupled = energy_weighted_sum(solver, False)
+    moments_coupled, status_coupled = cauchy_moments(solver, request.coupled, request.tolerances)
+    moments_uncoupled, status_uncoupled = cauchy_moments(solver, False, request.tolerances)
+    status = combine(status_coupled, status_uncoupled)
+    if not status.converged:
+        out.warnings.append(f"response: a sum-rule solve of the {name} response did not converge ({status.describe()})")
+    exact = exact_energy_weighted_sum(solver)
+    if request.excitation_count and spectrum is not None:
+        out.strength_distribution.append(strength_distribution(spectrum, s0_coupled))
+    out.sum_rules.append(SumRule(L, 0, s0_coupled, s0_uncoupled, exact, True))
+    for k, value, uncoupled in zip((-2, -4, -6), moments_coupled, moments_uncoupled):
+        out.sum_rules.append(SumRule(L, k, float(value), float(uncoupled), None, status.converged))

@@ -1,21 +1,32 @@
-"""Discrete RPA excitations: energies and oscillator strengths, by two routes.
+"""Discrete RPA excitations: energies and oscillator strengths, by three routes.
 
-1. **RPA eigenproblem** in the space of particle–hole pairs (channel t = a -> l', virtual
-   eigenvector v of F_l') with excitation energies :math:`\\varepsilon_v - \\varepsilon_a` up to a
-   cutoff.  With the channel weights W absorbed (:math:`\\tilde A = W^{1/2} A W^{-1/2}`, symmetric)
-   the excitation energies are the square roots of the eigenvalues of
-   :math:`M = (\\tilde A - \\tilde B)^{1/2} (\\tilde A + \\tilde B) (\\tilde A - \\tilde B)^{1/2}`
-   and, for eigenvectors :math:`z_n`, the oscillator strengths are
-   :math:`f_n = 2 [z_n^T (\\tilde A - \\tilde B)^{1/2} \\tilde b]^2`, so that
+1. **Davidson roots in the complete discrete space** (the default, :func:`rpa_spectrum`): the
+   lowest roots of the RPA problem :math:`(A+B)(X+Y) = \\omega (X-Y)`,
+   :math:`(A-B)(X-Y) = \\omega (X+Y)` over every particle-hole pair of the grid (channel
+   t = a -> l', all virtual eigenvectors of F_l'), found matrix-free with the coupling operator of
+   :class:`~tdhf.response.solver.ResponseSolver` and preconditioned by its resolvent
+   (:func:`tdhf.numerics.davidson.rpa_davidson`).  Oscillator strengths
+   :math:`f_n = 2\\omega_n [b^T W (X+Y)_n]^2` with :math:`(X+Y)^T W (X-Y) = 1`, so that
    :math:`\\alpha_L(\\omega) = \\sum_n f_n / (\\omega_n^2 - \\omega^2)` and
-   :math:`\\sum_n f_n = S(0)`.  Only moderate excitation energies enter M (the cutoff), so squaring
-   does not lose the low excitations to round-off.
-2. **Poles of the full response**: :math:`1/\\alpha_L(\\omega)` is smooth through a pole and vanishes
-   there; a bracketed root search refines each eigenvalue of route 1 in the complete discrete
-   space, and the residue gives :math:`f_n = -2\\omega_n / (d\\alpha^{-1}/d\\omega)`.
+   :math:`\\sum_n f_n = S(0)`.  A root is converged when its residual is below
+   ``eigen_tolerance``: the energy error is then second order in it, the error of f first order.
+2. **Truncated RPA eigenproblem** (:func:`rpa_eigen_excitations`, a cross-check): the same matrices
+   restricted to particle-hole energies below a cutoff, diagonalised densely.  With the channel
+   weights absorbed (:math:`\\tilde A = W^{1/2} A W^{-1/2}`) the energies are the square roots of
+   the eigenvalues of :math:`M = (\\tilde A - \\tilde B)^{1/2} (\\tilde A + \\tilde B)
+   (\\tilde A - \\tilde B)^{1/2}`.  Only moderate excitation energies enter M (the cutoff), so
+   squaring does not lose the low excitations to round-off.
+3. **Poles of the full response** (:func:`refine_pole`, a cross-check): :math:`1/\\alpha_L(\\omega)`
+   is smooth through a pole and vanishes there; secant steps in :math:`\\omega^2` find it, and the
+   residue gives :math:`f_n = -2\\omega_n / (d\\alpha^{-1}/d\\omega)`.
 
 Oscillator strengths are those of the M = 0 component, :math:`f_n = 2\\omega_n
 |\\langle n|\\sum_i r_i^L C_{L0}|0\\rangle|^2` (dimensionless for L = 1; the TRK sum is N).
+
+Only roots below the ionization threshold (-epsilon_HOMO) are bound excitations: above it the box
+discretizes a continuum.  A bound line is listed only if its excited orbital has decayed at the
+wall (``box_fraction`` below :data:`BOX_FRACTION`); Rydberg lines that the box squeezes are not
+listed as lines (the caller may enlarge the box).
 """
 
 from __future__ import annotations
@@ -25,43 +36,187 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.linalg
 
+from tdhf.numerics.davidson import rpa_davidson
+from tdhf.numerics.status import EXACT, SolveStatus
 from tdhf.numerics.threads import single_blas_thread
-from tdhf.response.solver import ResponseSolver
+from tdhf.errors import ConvergenceError
+from tdhf.response.particle_hole import ParticleHoleBasis
+from tdhf.response.solver import ResponseSolver, ResponseTolerances
 
 __all__ = [
     "Excitation",
+    "Spectrum",
     "StrengthDistribution",
+    "rpa_spectrum",
     "rpa_eigen_excitations",
     "refine_pole",
     "lowest_excitations",
     "strength_distribution",
+    "BOX_FRACTION",
+    "VISIBLE_STRENGTH",
 ]
 
-#: Default cutoff on particle-hole energies for route 1, hartree.  Squared energies up to 1e6
+#: Default cutoff on particle-hole energies for route 2, hartree.  Squared energies up to 1e6
 #: keep M well conditioned (round-off ~1e-16 * 1e6 in omega^2); the low excitations then sit
-#: within ~1e-11 of the complete-space poles for He and Ne (1e-6 at 100 hartree), and route 2
-#: confirms them.
+#: within ~1e-11 of the complete-space roots for He and Ne (1e-6 at 100 hartree).
 EIGEN_CUTOFF = 1000.0
+#: A line's excited orbital must fall below this fraction of its maximum beyond 0.75 R to be
+#: listed as a bound line (the box does not squeeze it).  Measured against a 300-bohr box (He
+#: 1s2p..1s4p, Ne 2p->3s, 4s, 3d in boxes of 40..200 bohr): f moves by ~0.01 x fraction^2 and
+#: the energy by less, so 2e-4 keeps f within ~4e-10 and the energy within ~1e-12 hartree.
+BOX_FRACTION = 2e-4
+#: Roots with smaller f are dark for the multipole (e.g. other-symmetry pseudo-states, f ~ 1e-30).
+VISIBLE_STRENGTH = 1e-10
+#: Roots asked of the Davidson iteration beyond those wanted: they converge the wanted ones faster.
+EXTRA_ROOTS = 3
 
 
 @dataclass(frozen=True)
 class Excitation:
     """One discrete excitation of multipole L (hartree; dimensionless f).
 
-    ``energy`` and ``oscillator_strength`` come from the pole of the full response (``refined``);
-    ``eigen_energy`` and ``eigen_oscillator_strength`` from the RPA eigenproblem (route 1),
-    kept as a cross-check.  If the pole search fails, ``refined`` is False and the route-1 values
-    are repeated (never silently dropped).  ``bound`` is False above the ionization threshold (there the
-    state is a pseudo-state of the discretized continuum).
+    ``energy`` and ``oscillator_strength`` are the RPA root in the complete discrete space
+    (Davidson, residual ``residual`` against ``converged``).  ``bound`` is False above the
+    ionization threshold (a pseudo-state of the discretized continuum); ``box_fraction`` is the
+    largest |excited orbital| beyond 0.75 R relative to its maximum (lines are listed only if it
+    is below :data:`BOX_FRACTION`).
     """
 
     multipole: int
     energy: float
     oscillator_strength: float
-    eigen_energy: float
-    eigen_oscillator_strength: float
     bound: bool
-    refined: bool = True
+    converged: bool = True
+    residual: float = 0.0
+    box_fraction: float = 0.0
+
+
+@dataclass(frozen=True, eq=False)
+class Spectrum:
+    """Every RPA root of one multipole below ``energy_limit`` (hartree) and the first one above.
+
+    ``energies`` ascending with ``strengths`` f; ``box_fractions`` as in :class:`Excitation`;
+    ``status`` of the eigensolver; ``threshold`` is the ionization energy -epsilon_HOMO.
+    """
+
+    multipole: int
+    coupled: bool
+    energies: np.ndarray
+    strengths: np.ndarray
+    box_fractions: np.ndarray
+    residuals: np.ndarray
+    threshold: float
+    energy_limit: float
+    status: SolveStatus
+
+    def lines(self, count: int | None = None) -> tuple[Excitation, ...]:
+        """Visible bound lines (f > VISIBLE_STRENGTH, below threshold, decayed at the wall), lowest first."""
+        found = []
+        for energy, strength, fraction, residual in zip(self.energies, self.strengths, self.box_fractions, self.residuals):
+            if count is not None and len(found) == count:
+                break
+            if strength < VISIBLE_STRENGTH or not energy < self.threshold:
+                continue
+            if fraction > BOX_FRACTION:
+                break  # this line and every higher one are squeezed by the box
+            found.append(Excitation(self.multipole, float(energy), float(strength), True,
+                                    bool(residual <= self.status.tolerance), float(residual), float(fraction)))
+        return tuple(found)
+
+    def squeezed(self, count: int) -> bool:
+        """True if fewer than ``count`` lines are listed because the box squeezes the next one."""
+        lines = self.lines(count)
+        if len(lines) == count:
+            return False
+        visible = (self.strengths >= VISIBLE_STRENGTH) & (self.energies < self.threshold)
+        return bool(np.any(visible & (self.box_fractions > BOX_FRACTION)))
+
+    def poles_around(self, frequency: float) -> tuple[float | None, float | None]:
+        """The visible roots just below and just above ``frequency`` (None where there is none)."""
+        visible = self.energies[self.strengths >= VISIBLE_STRENGTH]
+        below = visible[visible <= frequency]
+        above = visible[visible > frequency]
+        return (float(below[-1]) if below.size else None, float(above[0]) if above.size else None)
+
+
+@single_blas_thread
+def rpa_spectrum(
+    solver: ResponseSolver,
+    energy_limit: float | None = None,
+    minimum_roots: int = 3,
+    coupled: bool = True,
+    tolerance: float = 1e-10,
+) -> Spectrum:
+    """Route 1: every RPA root below ``energy_limit`` (default: the ionization threshold) and one above.
+
+    The Davidson iteration runs on the virtual eigenvectors of each channel in symmetric
+    coordinates :math:`\\sqrt{w_t}\\,c_t` (where A and B are symmetric and D is diagonal); A v and
+    B v come from one coupling application per vector, :math:`A v = D v - c^+(v,0)`,
+    :math:`B v = -c^-(v,0)`.  The number of roots grows until the highest one lies above the limit.
+    Uncoupled (or one-electron) roots are the particle-hole energies themselves.
+    """
+    threshold = solver.ionization_threshold
+    limit = threshold if energy_limit is None else float(energy_limit)
+    space = ParticleHoleBasis(solver, symmetric=True)
+    b = space.from_grid(solver.perturbation()[None])[0]
+    if not coupled or not solver.interacting:
+        return _uncoupled_spectrum(solver, space, b, limit, minimum_roots)
+
+    def both(block: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        functions = space.to_grid(block)
+        c_plus, c_minus = solver.coupling(functions, None)
+        a_block = space.energies * block - space.from_grid(c_plus)
+        b_block = -space.from_grid(c_minus)
+        return a_block + b_block, a_block - b_block
+
+    def precondition(residual: np.ndarray, omega: float) -> np.ndarray:
+        denominators = space.energies - omega
+        # Exactly at a particle-hole energy keep the correction direction instead of dividing by zero.
+        tiny = np.abs(denominators) < PRECONDITIONER_FLOOR
+        return residual / np.where(tiny, np.copysign(PRECONDITIONER_FLOOR, denominators), denominators)
+
+    # The coupled roots below the limit are about as many as the particle-hole energies below it
+    # (coupling moves them, mostly up): start there, so the iteration rarely has to restart.
+    roots = max(minimum_roots, 1, int(np.count_nonzero(space.energies < limit)) + 1)
+    order = np.argsort(space.energies)
+    while True:
+        wanted = min(roots + EXTRA_ROOTS, space.size)
+        guesses = np.eye(space.size)[order[:wanted]]
+        result = rpa_davidson(both, precondition, guesses, wanted, tolerance=tolerance)
+        energies = result.energies[:roots]
+        enough = energies.size == roots and (energies[-1] > limit or wanted >= space.size)
+        if not result.status.converged or enough:
+            break
+        roots = min(2 * roots, space.size)
+    p = result.p[: energies.size]
+    strengths = 2.0 * energies * (p @ b) ** 2
+    fractions = np.array([_box_fraction(solver, function) for function in space.to_grid(p)])
+    return Spectrum(solver.multipole, True, energies, strengths, fractions, result.residuals[: energies.size],
+                    threshold, limit, result.status)
+
+
+#: Smallest |eps_v - eps_a - omega| used by the preconditioner (hartree).
+PRECONDITIONER_FLOOR = 1e-8
+
+
+def _uncoupled_spectrum(solver: ResponseSolver, space: ParticleHoleBasis, b: np.ndarray, limit: float,
+                        minimum_roots: int) -> Spectrum:
+    """Particle-hole energies D and f = 2 D b^2 (b in symmetric coordinates)."""
+    order = np.argsort(space.energies)
+    keep = order[: max(minimum_roots, int(np.searchsorted(space.energies[order], limit, side="right")) + 1)]
+    unit = np.eye(space.size)[keep]
+    fractions = np.array([_box_fraction(solver, function) for function in space.to_grid(unit)])
+    energies = space.energies[keep]
+    return Spectrum(solver.multipole, False, energies, 2.0 * energies * b[keep] ** 2, fractions,
+                    np.zeros(keep.size), solver.ionization_threshold, limit, EXACT)
+
+
+def _box_fraction(solver: ResponseSolver, vector: np.ndarray) -> float:
+    """Largest |function| beyond 0.75 R relative to its largest value (rows of DVR coefficients)."""
+    values = np.abs(vector) / np.sqrt(solver.grid.weights)
+    outer = solver.grid.r > 0.75 * solver.grid.r_max
+    peak = values.max()
+    return float(values[..., outer].max() / peak) if outer.any() and peak > 0.0 else 0.0
 
 
 def _particle_hole_basis(solver: ResponseSolver, cutoff: float):
@@ -112,7 +267,7 @@ def rpa_eigen_excitations(solver: ResponseSolver, cutoff: float | None = None, c
             chunk = slice(start, min(start + COUPLING_BATCH, size))
             plus = np.zeros((chunk.stop - chunk.start, n_channels, n))
             plus[np.arange(plus.shape[0]), owners[chunk]] = columns[chunk]
-            c_plus, c_minus = solver.coupling(plus, np.zeros_like(plus))
+            c_plus, c_minus = solver.coupling(plus, None)
             for t, (vectors, _) in enumerate(blocks):
                 rows = slice(offsets[t], offsets[t + 1])
                 a_matrix[rows, chunk] -= (c_plus[:, t, :] @ vectors).T
@@ -135,48 +290,51 @@ def refine_pole(
     guess: float,
     coupled: bool = True,
     bounds: tuple[float, float] | None = None,
+    tolerances: ResponseTolerances = ResponseTolerances(),
 ) -> tuple[float, float]:
-    r"""Route 2: the pole of alpha_L(omega) near ``guess`` and its oscillator strength.
+    r"""Route 3: the pole of alpha_L(omega) near ``guess`` and its oscillator strength.
 
     Near a pole :math:`g(x) = 1/\alpha` with :math:`x = \omega^2` is nearly linear,
     :math:`g \approx (\omega_n^2 - x)/f_n`, so secant steps in x converge in a few response solves
     without evaluating the ill-conditioned equations right at the pole.
 
     ``bounds`` (hartree) is the interval the pole must stay in (default: guess/2 to 2 guess);
-    callers pass the midpoints to the neighbouring eigenvalues so no pole is found twice.
+    callers pass the midpoints to the neighbouring roots so no pole is found twice.
 
     Raises
     ------
-    RuntimeError
-        If the secant iteration leaves the bounds or does not settle.
+    ConvergenceError
+        If a response solve does not converge or gives a non-finite or zero alpha, or the secant
+        iteration leaves the bounds or does not settle.
     """
     low, high = bounds if bounds is not None else (0.5 * guess, 2.0 * guess)
     # Start well inside the bounds: neighbouring poles bend 1/alpha away from a straight line.
     offset = min(POLE_OFFSET, 0.1 * min(guess - low, high - guess) / guess)
 
     def inverse(x: float) -> float:
-        with np.errstate(divide="ignore", invalid="ignore"):
-            # Next to the pole round-off caps the reachable residual; a looser solve loses nothing.
-            value = solver.polarizability(solver.solve(float(np.sqrt(x)), coupled, tolerance=1e-10, max_cycles=2))
-        # Exactly at a pole (an uncoupled or one-electron guess is exact) alpha is infinite: g = 0.
-        return 1.0 / value if np.isfinite(value) and value != 0.0 else 0.0
+        first_order = solver.solve(float(np.sqrt(x)), coupled, tolerances=tolerances)
+        value = complex(solver.polarizability(first_order)).real
+        if not first_order.converged or not np.isfinite(value) or value == 0.0:
+            raise ConvergenceError(
+                f"pole search near {guess:.6f} hartree: the response at {np.sqrt(x):.9f} hartree gave alpha = {value!r}"
+                f" ({first_order.status.describe()})"
+            )
+        return 1.0 / value
 
     x0, x1 = (guess * (1.0 + offset)) ** 2, (guess * (1.0 - offset)) ** 2
     g0, g1 = inverse(x0), inverse(x1)
     for _ in range(POLE_MAX_STEPS):
-        slope = (g1 - g0) / (x1 - x0)
-        x2 = x1 - g1 / slope
-        if g1 == 0.0:
-            x2 = x1
-            break
+        if g1 == g0:
+            raise ConvergenceError(f"pole search near {guess:.6f} hartree: 1/alpha is flat there (no pole)")
+        x2 = x1 - g1 * (x1 - x0) / (g1 - g0)
         if not low**2 < x2 < high**2:
-            raise RuntimeError(f"no pole of the response near {guess:.6f} hartree")
+            raise ConvergenceError(f"pole search: no pole of the response near {guess:.6f} hartree")
         if abs(x2 - x1) < POLE_TOLERANCE * x2:
             break
         x0, g0 = x1, g1
         x1, g1 = x2, inverse(x2)
     else:
-        raise RuntimeError(f"the pole near {guess:.6f} hartree did not settle")
+        raise ConvergenceError(f"pole search: the pole near {guess:.6f} hartree did not settle")
     # Residue from a symmetric difference a little away from the pole, where solves are well conditioned.
     step = RESIDUE_STEP * x2
     slope = (inverse(x2 + step) - inverse(x2 - step)) / (2.0 * step)
@@ -196,42 +354,26 @@ def lowest_excitations(
     solver: ResponseSolver,
     count: int = 3,
     coupled: bool = True,
-    eigen: tuple[np.ndarray, np.ndarray] | None = None,
+    tolerance: float = 1e-10,
 ) -> tuple[Excitation, ...]:
-    """The ``count`` lowest bound excitations with f > 1e-10, refined as poles of the full response.
+    """The ``count`` lowest visible bound lines (f > VISIBLE_STRENGTH) that the box holds.
 
-    Only states below the ionization threshold (-epsilon_HOMO) are returned: above it the box
-    discretizes a continuum and its pseudo-states depend on the box radius.
-    ``eigen`` reuses a route-1 result (energies, strengths) instead of recomputing it.
+    Only states below the ionization threshold (-epsilon_HOMO) whose excited orbital has decayed at
+    the wall are returned; fewer than ``count`` if the box squeezes the next line (enlarge it) or
+    the bound spectrum ends.
     """
-    ionization = solver.ionization_threshold
-    energies, strengths = eigen if eigen is not None else rpa_eigen_excitations(solver, coupled=coupled)
-    found = []
-    visible = [(e, f) for e, f in zip(energies, strengths) if f >= 1e-10 and 0.0 < e < ionization]
-    for i, (energy, strength) in enumerate(visible):
-        below = 0.5 * (visible[i - 1][0] + energy) if i else 0.5 * energy
-        above = 0.5 * (visible[i + 1][0] + energy) if i + 1 < len(visible) else 2.0 * energy
-        try:
-            pole, residue = refine_pole(solver, float(energy), coupled, bounds=(below, above))
-            refined = True
-        except RuntimeError:
-            pole, residue, refined = float(energy), float(strength), False
-        found.append(
-            Excitation(solver.multipole, pole, residue, float(energy), float(strength), pole < ionization, refined)
-        )
-        if len(found) == count:
-            break
-    return tuple(found)
+    return rpa_spectrum(solver, minimum_roots=count, coupled=coupled, tolerance=tolerance).lines(count)
 
 
 @dataclass(frozen=True)
 class StrengthDistribution:
-    """Where the oscillator strength of multipole L sits (route-1 spectrum, dimensionless sums).
+    """Where the oscillator strength of multipole L sits (dimensionless sums of f).
 
-    ``continuum_threshold`` (hartree) is the ionization energy -epsilon_HOMO: route-1 states above
-    it are pseudo-states of the box-discretized continuum.  ``discrete_sum`` + ``continuum_sum``
-    cover the states below the cutoff; ``beyond_cutoff`` = ``total`` - both, where ``total`` is the
-    exact S(0) of the same discrete space (so the split always adds up to the sum rule).
+    ``continuum_threshold`` (hartree) is the ionization energy -epsilon_HOMO.  ``discrete_sum`` is
+    the strength of the ``discrete_states`` roots below it (bound lines, including Rydberg
+    pseudo-lines the box squeezes); ``continuum_sum`` = ``total`` - ``discrete_sum`` is the strength
+    of the box-discretized continuum above it, where ``total`` is the exact S(0) of the same
+    discrete space.
     """
 
     multipole: int
@@ -239,19 +381,13 @@ class StrengthDistribution:
     discrete_states: int
     discrete_sum: float
     continuum_sum: float
-    beyond_cutoff: float
     total: float
-    cutoff: float
+    converged: bool = True
 
 
-def strength_distribution(
-    solver: ResponseSolver, eigen: tuple[np.ndarray, np.ndarray], total: float, cutoff: float = EIGEN_CUTOFF
-) -> StrengthDistribution:
-    """Split S(0) = ``total`` into bound states, discretized continuum below the cutoff, and the rest."""
-    energies, strengths = eigen
-    threshold = solver.ionization_threshold
-    bound = energies < threshold
-    discrete, continuum = float(strengths[bound].sum()), float(strengths[~bound].sum())
-    return StrengthDistribution(
-        solver.multipole, threshold, int(bound.sum()), discrete, continuum, total - discrete - continuum, total, cutoff
-    )
+def strength_distribution(spectrum: Spectrum, total: float) -> StrengthDistribution:
+    """Split S(0) = ``total`` into the roots below the ionization threshold and the rest."""
+    bound = (spectrum.energies < spectrum.threshold) & (spectrum.strengths >= VISIBLE_STRENGTH)
+    discrete = float(spectrum.strengths[bound].sum())
+    return StrengthDistribution(spectrum.multipole, spectrum.threshold, int(bound.sum()), discrete,
+                                total - discrete, total, spectrum.status.converged)

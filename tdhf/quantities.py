@@ -1,0 +1,134 @@
+"""The long ("tidy") form of a result: one :class:`Quantity` per number.
+
+Every number a run reports becomes one row with the columns ``system, partner, property,
+multipole, frequency, imaginary, level, k, orbital, index, value, uncertainty, unit`` and the
+key path of the number in the JSON result (``path``).  Certificates, tables, comparisons and
+plots are built from these rows; the typed result objects stay the API.
+
+Property names (extend, never rename): ``total_energy``, ``orbital_energy`` (``orbital`` set),
+``polarizability`` (``level`` coupled or uncoupled), ``polarizability_velocity_form``,
+``polarizability_imaginary_part`` (broadened frequencies), ``dipole_shielding``,
+``quadrupole_shielding``, ``sum_rule`` (``k`` set), ``excitation_energy`` and
+``oscillator_strength`` (``index``: 1 for the lowest listed line of the multipole), ``C6``,
+``C8``, ``C10`` (``partner`` set).  Frequencies are in hartree (nu for ``imaginary``); units are
+words such as ``bohr^3`` or ``hartree``.
+
+>>> from tdhf.deck import parse_deck
+>>> from tdhf.driver import run_deck
+>>> rows = quantities(run_deck(parse_deck('[atom]\\nelement = "He"\\n[response]\\n')))
+>>> [(q.property, q.level, q.unit) for q in rows if q.property == "polarizability"]
+[('polarizability', 'coupled', 'bohr^3'), ('polarizability', 'uncoupled', 'bohr^3')]
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, replace
+from typing import Iterator
+
+from tdhf.driver import RunResult
+
+__all__ = ["Quantity", "quantities", "key_of", "multipole_unit"]
+
+
+@dataclass(frozen=True)
+class Quantity:
+    """One reported number with everything that identifies it (see the module docstring)."""
+
+    system: str
+    property: str
+    value: float
+    unit: str
+    path: str
+    partner: str | None = None
+    multipole: int | None = None
+    frequency: float | None = None
+    imaginary: bool | None = None
+    level: str | None = None
+    k: int | None = None
+    orbital: str | None = None
+    index: int | None = None
+    uncertainty: float | None = None
+    converged: bool = True
+
+
+def multipole_unit(multipole: int) -> str:
+    """The unit of alpha_L in atomic units: bohr^(2L+1)."""
+    return f"bohr^{2 * multipole + 1}"
+
+
+def key_of(quantity: Quantity) -> tuple:
+    """What identifies a number across runs of the same deck (everything but value, uncertainty, path)."""
+    return (quantity.system, quantity.partner, quantity.property, quantity.multipole, quantity.frequency,
+            quantity.imaginary, quantity.level, quantity.k, quantity.orbital, quantity.index)
+
+
+def quantities(result: RunResult) -> tuple[Quantity, ...]:
+    """Every finite number of ``result`` as a Quantity, with its certified uncertainty if any."""
+    uncertainty = result.uncertainties()
+    rows = []
+    for row in _rows(result):
+        if row.value is None or not math.isfinite(row.value):
+            continue
+        rows.append(replace(row, value=float(row.value), uncertainty=uncertainty.get(row.path)))
+    return tuple(rows)
+
+
+def _rows(result: RunResult) -> Iterator[Quantity]:
+    name = result.atom.name
+    state = result.ground_state
+    yield Quantity(name, "total_energy", state.total_energy, "hartree", "ground_state.total_energy",
+                   converged=state.converged)
+    for i, orbital in enumerate(state.orbitals):
+        yield Quantity(name, "orbital_energy", orbital.energy, "hartree", f"ground_state.orbitals[{i}].energy",
+                       orbital=orbital.label, converged=state.converged)
+    for i, row in enumerate(result.polarizabilities):
+        common = dict(multipole=row.multipole, frequency=row.frequency, imaginary=row.imaginary,
+                      converged=row.converged)
+        unit = multipole_unit(row.multipole)
+        path = f"polarizabilities[{i}]"
+        yield Quantity(name, "polarizability", row.coupled, unit, f"{path}.coupled", level="coupled", **common)
+        yield Quantity(name, "polarizability", row.uncoupled, unit, f"{path}.uncoupled", level="uncoupled", **common)
+        yield Quantity(name, "polarizability_velocity_form", row.velocity_form, unit, f"{path}.velocity_form",
+                       level="coupled", **common)
+        if row.broadening:
+            yield Quantity(name, "polarizability_imaginary_part", row.coupled_imaginary_part, unit,
+                           f"{path}.coupled_imaginary_part", level="coupled", **common)
+            yield Quantity(name, "polarizability_imaginary_part", row.uncoupled_imaginary_part, unit,
+                           f"{path}.uncoupled_imaginary_part", level="uncoupled", **common)
+    for i, row in enumerate(result.shielding):
+        yield Quantity(name, "dipole_shielding", row.direct, "1", f"shielding[{i}].direct", multipole=1,
+                       frequency=row.frequency, imaginary=row.imaginary, level="coupled", converged=row.converged)
+    for i, row in enumerate(result.quadrupole_shielding):
+        common = dict(multipole=2, frequency=row.frequency, imaginary=row.imaginary, converged=row.converged)
+        yield Quantity(name, "quadrupole_shielding", row.coupled, "1", f"quadrupole_shielding[{i}].coupled",
+                       level="coupled", **common)
+        yield Quantity(name, "quadrupole_shielding", row.uncoupled, "1", f"quadrupole_shielding[{i}].uncoupled",
+                       level="uncoupled", **common)
+    for i, row in enumerate(result.sum_rules):
+        unit = _sum_rule_unit(row.multipole, row.k)
+        common = dict(multipole=row.multipole, k=row.k, converged=row.converged)
+        yield Quantity(name, "sum_rule", row.value, unit, f"sum_rules[{i}].value", level="coupled", **common)
+        yield Quantity(name, "sum_rule", row.uncoupled, unit, f"sum_rules[{i}].uncoupled", level="uncoupled", **common)
+    counters: dict[int, int] = {}
+    for i, row in enumerate(result.excitations):
+        counters[row.multipole] = counters.get(row.multipole, 0) + 1
+        common = dict(multipole=row.multipole, index=counters[row.multipole], level="coupled", converged=row.converged)
+        yield Quantity(name, "excitation_energy", row.energy, "hartree", f"excitations[{i}].energy", **common)
+        yield Quantity(name, "oscillator_strength", row.oscillator_strength, "1",
+                       f"excitations[{i}].oscillator_strength", **common)
+    for i, row in enumerate(result.dispersion):
+        first, second = row.pair
+        for order, value in (("C6", row.C6), ("C8", row.C8), ("C10", row.C10)):
+            yield Quantity(first, order, value, f"hartree bohr^{order[1:]}", f"dispersion[{i}].{order}",
+                           partner=second, level="coupled", converged=row.converged)
+
+
+def _sum_rule_unit(multipole: int, k: int) -> str:
+    """S_L(k) = sum_n omega_n^k f_n with f_n in bohr^(2L-2) (dimensionless for L = 1)."""
+    parts = []
+    if k:
+        parts.append(f"hartree^{k}")
+    if multipole > 1:
+        parts.append(f"bohr^{2 * multipole - 2}")
+    return " ".join(parts) if parts else "1"
