@@ -179,8 +179,7 @@ def test_fixture_converged_cleanly(request, atom):
 #: one-electron ions on GridSettings() and GridSettings.tight().  Both are first order in the
 #: remaining orbital error, which the SCF stops below its residual tolerance 1e-9 (final orbital
 #: changes 2e-11 .. 4e-10 here, the error itself smaller still); an SCF that stopped a step earlier
-#: on another machine could reach ~1e-10, so 1e-9 bounds both with room and is still 1e-3 of the
-#: old 1e-6 bound on the cusp.
+#: on another machine could reach ~1e-10, so 1e-9 bounds both with room.
 VIRIAL_ATOL = 1e-9
 CUSP_ATOL = 1e-9
 
