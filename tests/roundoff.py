@@ -51,9 +51,10 @@ def resolvent_bound(solver, frequency: complex = 0.0) -> float:
     return U * largest / min(gaps)
 
 
-#: Bound on ||(1 - G C)^-1|| = 1/sigma_min of the coupled response operator below the first pole:
-#: dense SVD of 1 - G C gives <= 3.0 for He, Be, Ne and Ar at omega = 0 and 0.3 hartree (Be: 3.0),
-#: and G shrinks along the imaginary axis, so the solution error is <= 3 x the residual.
+#: Bound on ||(1 - G C)^-1|| = 1/sigma_min of the coupled response operator well below the first
+#: pole: dense SVD of 1 - G C gives <= 3.0 for He, Be, Ne and Ar at omega = 0 and for He, Ne, Ar at
+#: 0.3 hartree (it grows near a pole: Be at 0.3, above its first pole, gives 111), and G shrinks along
+#: the imaginary axis, so there the solution error is <= 3 x the residual.
 KRYLOV_CONDITION = 3.0
 
 

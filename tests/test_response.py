@@ -13,9 +13,10 @@ Evidence, by kind:
 5. self-regression values of this code, labelled as such.
 
 Round-off tolerances are derived (tests/roundoff.py): U lambda_max / gap for everything that goes
-through the eigen-decomposition of the Fock matrices (first-order perturbation theory), plus the
-error the GMRES stop allows in the quantity measured (roundoff.krylov_bound) for coupled solves.  Tolerances of physics identities that hold only to
-the grid's accuracy say what was measured, on which grids.
+through the eigen-decomposition of the Fock matrices (first-order perturbation theory), plus, for
+coupled solves, the error the GMRES stop allows in the quantity measured (roundoff.krylov_bound).
+Tolerances of physics identities that hold only to the grid's accuracy say what was measured, on
+which grids.
 
 Conventions (module docstring of tdhf.response.solver): perturbation r^L C_L0 of the electrons,
 alpha_L = 2 sum_n |<0|sum_i r_i^L C_L0(i)|n>|^2 / (E_n - E_0); "uncoupled" is the sum over the
