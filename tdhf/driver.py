@@ -25,7 +25,7 @@ import warnings
 from dataclasses import dataclass, field
 from typing import Any, Callable
 
-from tdhf.deck import Deck, DispersionSection, ResponseSection, parse_system_name
+from tdhf.deck import Deck, DispersionSection, ResponseSection, deck_digest, parse_system_name
 from tdhf.ground_state import GroundState, solve_ground_state
 from tdhf.properties.dispersion import compute_dispersion, dispersion_table
 from tdhf.properties.response_properties import NORMALIZATION, compute_response
@@ -84,13 +84,17 @@ def program_info() -> ProgramInfo:
 
 @dataclass(frozen=True)
 class RunSettings:
-    """Every effective option of a run (defaults filled in), stored with the results."""
+    """Every effective option of a run (defaults filled in), stored with the results.
+
+    ``deck_digest`` is :func:`tdhf.deck.deck_digest` of the deck (resume checks it).
+    """
 
     grid: GridSettings
     scf: ScfSettings
     response: ResponseSection | None
     dispersion: DispersionSection | None
     schema: int
+    deck_digest: str = ""
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -242,7 +246,7 @@ def run_deck(deck: Deck, progress: Progress | None = None) -> RunResult:
     """
     report = progress or (lambda stage: None)
     system = deck.atom.to_system()
-    settings = RunSettings(deck.grid, deck.scf, deck.response, deck.dispersion, deck.schema)
+    settings = RunSettings(deck.grid, deck.scf, deck.response, deck.dispersion, deck.schema, deck_digest(deck))
     for name in ("grid", "scf", "response", "dispersion"):
         logger.info("option %s: %s", name, getattr(settings, name))
     report(f"ground state of {system.name}")

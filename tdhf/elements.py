@@ -27,7 +27,7 @@ from tdhf.errors import ConfigurationError, OpenShellError, UnknownElementError
 __all__ = [
     "SYMBOLS", "L_LETTERS", "Subshell", "atomic_number", "symbol", "neutral_configuration",
     "default_configuration", "parse_configuration", "format_configuration", "electron_count",
-    "require_closed_shell", "closed_shell_charges", "ion_name",
+    "require_closed_shell", "closed_shell_charges", "ion_name", "LOWEST_BOUND_CHARGE",
 ]
 
 SYMBOLS: tuple[str, ...] = tuple("""
@@ -271,10 +271,18 @@ def ion_name(Z: int, charge: int) -> str:
     return f"{name}{abs(charge) if abs(charge) > 1 else ''}{sign}"
 
 
+#: Most negative charge whose outermost orbital Hartree-Fock binds.  Measured for every Z <= 118
+#: with the default configurations: all 19 closed-shell anions of charge -1 have a bound
+#: outermost orbital (H- ... Ts-, epsilon from -0.008 to -0.18 hartree), none of the 19 closed-shell
+#: dianions (He2-, O2-, ..., Og2-) has one, so tdhf refuses them (ConfigurationError).
+LOWEST_BOUND_CHARGE = -1
+
+
 def closed_shell_charges(Z: int) -> tuple[int, ...]:
-    """Charges in ``[-2, Z - 1]`` whose default configuration is closed, plus ``Z - 1``."""
+    """Charges in ``[LOWEST_BOUND_CHARGE, Z - 1]`` whose default configuration is closed, plus
+    ``Z - 1``: the charge states of element Z that tdhf can solve."""
     Z = _check_z(Z)
-    return tuple(q for q in range(-2, Z) if q == Z - 1
+    return tuple(q for q in range(LOWEST_BOUND_CHARGE, Z) if q == Z - 1
                  or all(s.is_closed for s in default_configuration(Z, q)))
 
 

@@ -19,6 +19,7 @@ Energies are in hartree.  The total energy is
 from __future__ import annotations
 
 import logging
+import math
 from dataclasses import dataclass
 from typing import Protocol, Sequence
 
@@ -111,6 +112,10 @@ class ScfSolution:
     history : tuple of (iteration, energy, energy change, orbital change)
     strategy : str
         What finally ran: "diis" or "damped-diis".
+    message : str
+        What stopped the loop: "converged", "iteration limit reached" or "non-finite values
+        (NaN or Inf) in the Fock matrix at iteration k" (then the energies are NaN: no number
+        from a broken solve).
     """
 
     shells: OccupiedShells
@@ -126,6 +131,7 @@ class ScfSolution:
     energy_change: float
     history: tuple[tuple[int, float, float, float], ...]
     strategy: str
+    message: str
 
     @property
     def total_energy(self) -> float:
@@ -226,11 +232,15 @@ def solve_scf(
                          iteration, energy, change, orbital_change, state.residual)
             energy_floor = max(settings.energy_tolerance, ENERGY_ROUNDOFF * abs(energy))
             converged = change < energy_floor and orbital_change < settings.residual_tolerance
-            if converged or iteration == 2 * settings.max_iterations:
+            finite = math.isfinite(energy) and all(np.isfinite(m).all() for m in state.fock.values())
+            if converged or not finite or iteration == 2 * settings.max_iterations:
+                message = ("converged" if converged else "iteration limit reached" if finite else
+                           f"non-finite values (NaN or Inf) in the Fock matrix at iteration {iteration}")
+                components = state.components if finite else dict.fromkeys(state.components, math.nan)
                 return ScfSolution(
                     shells=shells,
-                    orbital_energies=state.orbital_energies,
-                    **state.components,
+                    orbital_energies=state.orbital_energies if finite else np.full(len(specs), math.nan),
+                    **components,
                     converged=converged,
                     iterations=iteration,
                     residual=orbital_change,
@@ -238,6 +248,7 @@ def solve_scf(
                     energy_change=change,
                     history=tuple(history),
                     strategy=strategy,
+                    message=message,
                 )
             previous_energy = energy
             fock = state.fock

@@ -33,7 +33,6 @@ from tdhf.errors import ConvergenceError, InputError
 from tdhf.ground_state import GroundState, solve_ground_state
 from tdhf.properties import dispersion
 from tdhf.properties.dispersion import (
-    CSV_COLUMNS,
     ERROR_FLOOR,
     RELATIVE_ERROR_GOAL,
     casimir_polder_coefficients,
@@ -42,10 +41,9 @@ from tdhf.properties.dispersion import (
     dispersion_table,
     imaginary_frequency_rule,
     imaginary_polarizabilities,
-    write_polarizability_csv,
 )
 from tdhf.radial.mesh import GridSettings
-from tdhf.report.serialize import to_jsonable
+from tdhf.report.serialize import CSV_COLUMNS, to_jsonable, write_polarizability_csv
 from tdhf.system import System
 
 #: Exact nonrelativistic H(1s)-H(1s) coefficients, hartree bohr^2n, as quoted in the literature

@@ -274,7 +274,7 @@ def test_require_closed_shell_accepts_one_electron(z, charge, text):
     (9, 0, "[He]2s2 2p5", "2p5", ["F- (charge -1)", "F5+ (charge 5)"]),
     (11, 0, "[Ne]3s1", "3s1", ["Na+ (charge 1)", "Na- (charge -1)"]),
     (3, 0, "1s2 2s1", "2s1", ["Li+ (charge 1)", "Li- (charge -1)"]),
-    (8, 0, "[He]2s2 2p4", "2p4", ["O2- (charge -2)"]),
+    (8, 0, "[He]2s2 2p4", "2p4", ["O4+ (charge 4)"]),  # not O2-: HF does not bind it (LOWEST_BOUND_CHARGE)
     (12, 0, "[Ne]3s1 3p1", "3s1 3p1", ["Mg (charge 0)", "Mg2+ (charge 2)"]),
 ])
 def test_require_closed_shell_open_shell(z, charge, text, open_part, suggestions):
@@ -288,6 +288,19 @@ def test_require_closed_shell_open_shell(z, charge, text, open_part, suggestions
         assert item in message
     listed = message.split(": ")[-1].split(";")[0].split(", ")
     assert 1 <= len(listed) <= 4
+    assert "2-" not in message
+
+
+@pytest.mark.slow
+def test_suggested_anions_are_the_ones_hartree_fock_binds():
+    """Self-consistency of LOWEST_BOUND_CHARGE: a suggested anion solves, the dianion below it does not."""
+    from tdhf.ground_state import solve_ground_state
+    from tdhf.system import System
+
+    for z in (8, 16):  # O, S: the dianions O2-, S2- are closed shells; F-, Cl- stand for the monoanions
+        with pytest.raises(ConfigurationError, match="not bound in Hartree-Fock"):
+            solve_ground_state(System.from_input(z, -2))
+    assert solve_ground_state(System.from_input(17, -1)).converged
 
 
 def test_open_shell_suggestions_are_the_nearest_four():
