@@ -26,6 +26,7 @@ from __future__ import annotations
 import argparse
 import contextlib
 import dataclasses
+import errno
 import logging
 import os
 import signal
@@ -200,19 +201,26 @@ def _check_outputs(args: argparse.Namespace, deck: "Deck") -> dict[str, "OutputT
 
 def _check_certification_grid(deck: "Deck") -> None:
     """``--certify`` reruns on a finer grid: check now that it fits the grid limits."""
+    from tdhf.ground_state import starting_box
     from tdhf.radial.mesh import check_grid_size
 
+    system, grid = deck.atom.to_system(), deck.grid.refined()
     try:
-        check_grid_size(deck.grid.refined(), deck.atom.to_system().Z, deck.grid.r_max or 80.0)
+        check_grid_size(grid, system.Z, starting_box(system, grid))
     except InputError as err:
         raise InputError(f"--certify: the finer grid it needs is too large: {err}") from None
+
+
+def _one_line(text: str) -> str:
+    """Every line break (including the Unicode ones str.splitlines knows) becomes a space."""
+    return " ".join(text.strip().splitlines())
 
 
 class _OneLineFormatter(logging.Formatter):
     """``tdhf: error: ...``, ``tdhf: warning: ...``, ``tdhf: ...``; newlines become spaces."""
 
     def format(self, record: logging.LogRecord) -> str:
-        text = " ".join(record.getMessage().strip().splitlines())
+        text = _one_line(record.getMessage())
         if record.levelno >= logging.ERROR:
             return f"tdhf: error: {text}"
         if record.levelno >= logging.WARNING:
@@ -307,7 +315,7 @@ def main(argv: Sequence[str] | None = None, stdout: TextIO | None = None, stderr
         with contextlib.redirect_stdout(stdout):
             args = build_parser().parse_args(argv)
     except _UsageError as err:
-        print(f"tdhf: error: {err}", file=stderr)
+        print("tdhf: error:", _one_line(str(err)), file=stderr)
         return EXIT_INPUT
     except SystemExit as done:  # --help, --version
         return done.code if isinstance(done.code, int) else EXIT_OK
@@ -344,8 +352,12 @@ def _stdout_console(stdout: TextIO) -> "Console":
     """The results console: the terminal's width, or a fixed width for files and pipes."""
     from rich.console import Console
 
-    console = Console(file=stdout)
-    return console if console.is_terminal else Console(file=stdout, width=FILE_WIDTH)
+    class ResultsConsole(Console):
+        def on_broken_pipe(self) -> None:  # rich would exit with 1; it is an output failure
+            raise BrokenPipeError(errno.EPIPE, os.strerror(errno.EPIPE))
+
+    console = ResultsConsole(file=stdout)
+    return console if console.is_terminal else ResultsConsole(file=stdout, width=FILE_WIDTH)
 
 
 def _to_stdout(stdout: TextIO, draw: Any) -> None:

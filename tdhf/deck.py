@@ -71,6 +71,7 @@ from typing import Any, Callable, Mapping
 
 from tdhf.elements import atomic_number, symbol
 from tdhf.errors import DeckError, FrequencyError, InputError, UnknownElementError
+from tdhf.ground_state import starting_box
 from tdhf.radial.mesh import GridSettings, check_grid_size
 from tdhf.scf import ScfSettings
 from tdhf.system import System
@@ -240,15 +241,14 @@ def build_deck(data: Mapping[str, Any]) -> Deck:
 def _check_grids(atom: AtomSection, grid: GridSettings, dispersion: DispersionSection | None) -> None:
     """Refuse grid settings whose grid would be too large for any system of the deck, now.
 
-    Checked in the starting box (the given r_max, else 80 bohr, the anions' start); a box that
-    the ground state enlarges later is checked again before it is built.
+    Checked in the starting box (:func:`tdhf.ground_state.starting_box`); a box that the ground
+    state enlarges later is checked again before it is built.
     """
-    r_max = grid.r_max or 80.0
-    charges = {atom.to_system().Z}
+    systems = [atom.to_system()]
     for name in (dispersion.partners or dispersion.systems) if dispersion else ():
-        charges.add(atomic_number(parse_system_name(name)[0]))
-    for z in sorted(charges):
-        check_grid_size(grid, z, r_max)
+        systems.append(System.from_input(*parse_system_name(name)))
+    for system in systems:
+        check_grid_size(grid, system.Z, starting_box(system, grid))
 
 
 def _atom(table: Mapping[str, Any]) -> AtomSection:
@@ -466,7 +466,11 @@ def _field_names(cls: type) -> tuple[str, ...]:
     return tuple(f.name for f in dataclasses.fields(cls))
 
 
+_BARE_KEY = re.compile(r"[A-Za-z0-9_-]+")
+
+
 def _join(path: str, key: str) -> str:
+    key = key if _BARE_KEY.fullmatch(key) else json.dumps(key)  # as TOML writes it: one line, visible
     return f"{path}.{key}" if path else key
 
 

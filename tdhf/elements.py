@@ -28,6 +28,7 @@ __all__ = [
     "SYMBOLS", "L_LETTERS", "Subshell", "atomic_number", "symbol", "neutral_configuration",
     "default_configuration", "parse_configuration", "format_configuration", "electron_count",
     "require_closed_shell", "closed_shell_charges", "ion_name", "LOWEST_BOUND_CHARGE",
+    "closed_shell_atoms", "isoelectronic_sequence",
 ]
 
 SYMBOLS: tuple[str, ...] = tuple("""
@@ -284,6 +285,22 @@ def closed_shell_charges(Z: int) -> tuple[int, ...]:
     Z = _check_z(Z)
     return tuple(q for q in range(LOWEST_BOUND_CHARGE, Z) if q == Z - 1
                  or all(s.is_closed for s in default_configuration(Z, q)))
+
+
+def closed_shell_atoms() -> tuple[int, ...]:
+    """Atomic numbers whose neutral default configuration is closed (He, Be, Ne, ..., Og)."""
+    return tuple(z for z in range(1, _MAX_Z + 1) if all(s.is_closed for s in neutral_configuration(z)))
+
+
+def isoelectronic_sequence(electrons: int, highest_charge: int) -> tuple[tuple[int, int], ...]:
+    """(Z, charge) of the closed-shell systems with ``electrons`` electrons, charge
+    LOWEST_BOUND_CHARGE .. ``highest_charge``, in the default configurations (ascending Z)."""
+    members = []
+    for charge in range(LOWEST_BOUND_CHARGE, highest_charge + 1):
+        z = electrons + charge
+        if 1 <= z <= _MAX_Z and all(s.is_closed for s in default_configuration(z, charge)):
+            members.append((z, charge))
+    return tuple(members)
 
 
 def require_closed_shell(Z: int, charge: int, subshells: Iterable[Subshell]) -> None:

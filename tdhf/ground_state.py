@@ -21,7 +21,7 @@ from tdhf.radial.mesh import MAX_R_MAX, GridSettings, RadialGrid, build_grid
 from tdhf.scf import ScfSettings, ScfSolution, solve_scf
 from tdhf.system import System
 
-__all__ = ["OrbitalResult", "GroundState", "solve_ground_state", "BOX_DECAY"]
+__all__ = ["OrbitalResult", "GroundState", "solve_ground_state", "starting_box", "BOX_DECAY"]
 
 logger = logging.getLogger(__name__)
 
@@ -99,6 +99,11 @@ class GroundState:
         return float(self.orbital_energies.max())
 
 
+def starting_box(system: System, grid_settings: GridSettings) -> float:
+    """The box radius (bohr) of the first SCF: the given r_max, else DEFAULT_R_MAX (ANION_R_MAX for anions)."""
+    return grid_settings.r_max or (ANION_R_MAX if system.charge < 0 else DEFAULT_R_MAX)
+
+
 @single_blas_thread
 def solve_ground_state(
     system: System,
@@ -115,7 +120,7 @@ def solve_ground_state(
         If the outermost orbital is not bound (orbital energy >= 0): the ion does not exist in HF.
     """
     automatic = grid_settings.r_max is None
-    r_max = grid_settings.r_max or (ANION_R_MAX if system.charge < 0 else DEFAULT_R_MAX)
+    r_max = starting_box(system, grid_settings)
     for _ in range(4):
         grid = build_grid(grid_settings, system.Z, r_max)
         solution = solve_scf(grid, system.Z, system.subshells, scf_settings)
