@@ -25,7 +25,6 @@ from __future__ import annotations
 
 import argparse
 import contextlib
-import dataclasses
 import errno
 import logging
 import os
@@ -412,6 +411,8 @@ def _execute(args: argparse.Namespace, stdout: TextIO, err_console: "Console", s
     targets = _check_outputs(args, deck)
     if args.certify:
         _check_certification_grid(deck)
+    import dataclasses
+
     from tdhf.driver import certify, run_deck
     from tdhf.report.terminal import print_report
 
