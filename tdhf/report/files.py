@@ -66,9 +66,10 @@ def _kind(mode: int) -> str:
 
 
 def _writable_folder(folder: Path) -> None:
+    if folder.exists() and not folder.is_dir():
+        raise _Refused(f"{folder} is not a folder; give a folder")
     if not folder.is_dir():
-        what = "is not a folder" if folder.exists() else "does not exist"
-        raise _Refused(f"the folder {folder} {what}; create it or give another path")
+        raise _Refused(f"the folder {folder} does not exist; create it or give another path")
     if not os.access(folder, os.W_OK | os.X_OK):
         raise _Refused(f"the folder {folder} is not writable; choose a folder you can write to")
 
