@@ -279,17 +279,20 @@ def ion_name(Z: int, charge: int) -> str:
 LOWEST_BOUND_CHARGE = -1
 
 
+def _closed(subshells: Iterable[Subshell]) -> bool:
+    return all(s.is_closed for s in subshells)
+
+
 def closed_shell_charges(Z: int) -> tuple[int, ...]:
     """Charges in ``[LOWEST_BOUND_CHARGE, Z - 1]`` whose default configuration is closed, plus
     ``Z - 1``: the charge states of element Z that tdhf can solve."""
     Z = _check_z(Z)
-    return tuple(q for q in range(LOWEST_BOUND_CHARGE, Z) if q == Z - 1
-                 or all(s.is_closed for s in default_configuration(Z, q)))
+    return tuple(q for q in range(LOWEST_BOUND_CHARGE, Z) if q == Z - 1 or _closed(default_configuration(Z, q)))
 
 
 def closed_shell_atoms() -> tuple[int, ...]:
     """Atomic numbers whose neutral default configuration is closed (He, Be, Ne, ..., Og)."""
-    return tuple(z for z in range(1, _MAX_Z + 1) if all(s.is_closed for s in neutral_configuration(z)))
+    return tuple(z for z in range(1, _MAX_Z + 1) if _closed(neutral_configuration(z)))
 
 
 def isoelectronic_sequence(electrons: int, highest_charge: int) -> tuple[tuple[int, int], ...]:
@@ -298,7 +301,7 @@ def isoelectronic_sequence(electrons: int, highest_charge: int) -> tuple[tuple[i
     members = []
     for charge in range(LOWEST_BOUND_CHARGE, highest_charge + 1):
         z = electrons + charge
-        if 1 <= z <= _MAX_Z and all(s.is_closed for s in default_configuration(z, charge)):
+        if 1 <= z <= _MAX_Z and _closed(default_configuration(z, charge)):
             members.append((z, charge))
     return tuple(members)
 
