@@ -416,10 +416,15 @@ def _execute(args: argparse.Namespace, stdout: TextIO, err_console: "Console", s
     from tdhf.driver import certify, run_deck
     from tdhf.report.terminal import print_report
 
+    codes = []
     with _progress(err_console, live=err_console.is_terminal and not (args.quiet or args.verbose)) as progress:
         result = run_deck(deck, progress=progress)
         if args.certify:
-            result = dataclasses.replace(result, certification=certify(result, deck, progress=progress))
+            try:
+                result = dataclasses.replace(result, certification=certify(result, deck, progress=progress))
+            except (InputError, ConvergenceError) as err:  # the results of the run itself are kept
+                logger.error("--certify: %s; the results are kept without certification", err)
+                codes.append(EXIT_INPUT if isinstance(err, InputError) else EXIT_CONVERGENCE)
     for note in result.warnings:  # notes of the result that no library warning has shown yet
         if note not in shown:
             logger.warning("%s", note)
@@ -427,7 +432,7 @@ def _execute(args: argparse.Namespace, stdout: TextIO, err_console: "Console", s
     if not args.quiet or failed:
         _to_stdout(stdout, lambda console: print_report(console, result))
     json_written = "--json" in targets and "--json" not in failed
-    codes = [EXIT_OUTPUT] if failed else []
+    codes += [EXIT_OUTPUT] if failed else []
     if result.rejected:
         saved = f"; the other results were written to {args.json}" if json_written else ""
         logger.error("%s%s", "; ".join(result.rejected), saved)

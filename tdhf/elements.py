@@ -275,7 +275,7 @@ def ion_name(Z: int, charge: int) -> str:
 #: Most negative charge whose outermost orbital Hartree-Fock binds.  Measured for every Z <= 118
 #: with the default configurations: all 19 closed-shell anions of charge -1 have a bound
 #: outermost orbital (H- ... Ts-, epsilon from -0.008 to -0.18 hartree), none of the 19 closed-shell
-#: dianions (He2-, O2-, ..., Og2-) has one, so tdhf refuses them (ConfigurationError).
+#: dianions (He2-, O2-, ..., Og2-) has one, so tdhf refuses them before any work.
 LOWEST_BOUND_CHARGE = -1
 
 
@@ -314,7 +314,8 @@ def require_closed_shell(Z: int, charge: int, subshells: Iterable[Subshell]) -> 
     Raises
     ------
     ConfigurationError
-        If the electron count differs from ``Z - charge`` or a subshell is given twice.
+        If the electron count differs from ``Z - charge``, a subshell is given twice or the charge
+        is below LOWEST_BOUND_CHARGE.
     OpenShellError
         If a subshell is partially filled; the message lists nearby closed-shell charge states.
     """
@@ -328,6 +329,11 @@ def require_closed_shell(Z: int, charge: int, subshells: Iterable[Subshell]) -> 
         fix = f" or set atom.charge to {Z - count}" if count >= 1 else ""
         raise _cfg_error(f"{text!r} has {count} electrons but {SYMBOLS[Z - 1]} (Z={Z}) with "
                          f"atom.charge {charge} has {wanted}; fix atom.configuration{fix}")
+    if charge < LOWEST_BOUND_CHARGE:
+        raise ConfigurationError(
+            f"atom.charge: {charge}: Hartree-Fock binds no anion of {ion_name(Z, charge)}'s charge (the"
+            f" outermost orbital of every closed-shell dianion lies in the continuum); use a charge >= {LOWEST_BOUND_CHARGE}"
+        )
     if count == 1:
         return  # hydrogen-like: HF is exact for one electron
     open_ = [str(s) for s in subshells if 0 < s.occupation < s.capacity]

@@ -301,3 +301,19 @@ def test_output_paths_survive_unusual_deck_names(tmp_path):
     (entry,) = run_series([odd], tmp_path / "out")
     assert entry.status == "ok" and os.path.dirname(entry.output) == str(tmp_path / "out")
     assert visible(tmp_path / "out") == ["..json"]
+
+
+def test_a_failing_certification_keeps_the_results_of_the_run(tmp_path, monkeypatch):
+    from tdhf.errors import GridError
+
+    def refuse(result, deck, progress=None):
+        raise GridError("grid: the refined box would need too many points")
+
+    monkeypatch.setattr("tdhf.driver.certify", refuse)
+    code, out, err = run_main("atom", "He", "--certify", "--json", str(tmp_path / "out.json"))
+    assert code == 2
+    (line,) = error_lines(err)
+    assert line == ("tdhf: error: --certify: grid: the refined box would need too many points;"
+                    " the results are kept without certification")
+    assert json.loads((tmp_path / "out.json").read_text())["ground_state"]["converged"] is True
+    assert "total energy" in out
