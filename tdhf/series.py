@@ -93,12 +93,16 @@ def run_series(
     for wait in (False, True):  # first every deck no other series holds, then the others
         held_elsewhere = []
         for k in pending:
-            with claim(outputs[k], wait=wait) as held:
-                if not held:
-                    held_elsewhere.append(k)
-                    continue
-                report(f"deck {k + 1}/{len(decks)}: {decks[k]}")
-                entries[k] = _run_one(decks[k], outputs[k], resume)
+            try:
+                with claim(outputs[k], wait=wait) as held:
+                    if not held:
+                        held_elsewhere.append(k)
+                        continue
+                    report(f"deck {k + 1}/{len(decks)}: {decks[k]}")
+                    entries[k] = _run_one(decks[k], outputs[k], resume)
+            except OSError as err:  # the lock file itself cannot be made: the folder changed under us
+                entries[k] = _entry(decks[k], "", "output error",
+                                    f"series --out {out_dir}: cannot claim {outputs[k].name}: {err.strerror or err}")
             if entries[k].status == "interrupted":
                 return tuple(entries[i] for i in sorted(entries))
         pending = held_elsewhere

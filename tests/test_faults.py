@@ -317,3 +317,19 @@ def test_a_failing_certification_keeps_the_results_of_the_run(tmp_path, monkeypa
                     " the results are kept without certification")
     assert json.loads((tmp_path / "out.json").read_text())["ground_state"]["converged"] is True
     assert "total energy" in out
+
+
+def test_a_folder_that_becomes_unusable_during_a_series_is_an_output_error(tmp_path, monkeypatch):
+    from tdhf.report import files
+
+    real = files.os.open
+
+    def no_lock(path, flags, mode=0o777):
+        if str(path).endswith(".lock"):
+            raise PermissionError(errno.EACCES, os.strerror(errno.EACCES))
+        return real(path, flags, mode)
+
+    decks = write_decks(tmp_path, he=HE)
+    monkeypatch.setattr(files.os, "open", no_lock)
+    (entry,) = run_series(decks, tmp_path / "out")
+    assert entry.status == "output error" and "cannot claim he.json: Permission denied" in entry.message

@@ -197,9 +197,9 @@ def remove_stale_temporaries(path: str | Path) -> int:
     """
     path = Path(path)
     removed = 0
-    with contextlib.suppress(FileNotFoundError, NotADirectoryError):
+    with contextlib.suppress(OSError):  # best effort: a leftover that stays harms nothing
         for leftover in path.parent.glob(f".{path.name}.*.tmp"):
-            with contextlib.suppress(FileNotFoundError):
+            with contextlib.suppress(OSError):
                 leftover.unlink()
                 removed += 1
     return removed
