@@ -73,8 +73,9 @@ class ScfSettings:
                 raise InputError(f"scf.{key}: {value!r} must be in (0, 1); the default is {getattr(ScfSettings, key)}")
         if isinstance(self.max_iterations, bool) or not isinstance(self.max_iterations, int) or not 1 <= self.max_iterations <= 10000:
             raise InputError(f"scf.max_iterations: {self.max_iterations!r} must be an integer in 1..10000; the default is 120")
-        if isinstance(self.diis_size, bool) or not isinstance(self.diis_size, int) or not 1 <= self.diis_size <= 50:
-            raise InputError(f"scf.diis_size: {self.diis_size!r} must be an integer in 1..50; the default is 10")
+        # DIIS keeps 2 diis_size Fock-sized matrices per symmetry, the largest memory use of a run.
+        if isinstance(self.diis_size, bool) or not isinstance(self.diis_size, int) or not 1 <= self.diis_size <= 20:
+            raise InputError(f"scf.diis_size: {self.diis_size!r} must be an integer in 1..20; the default is 10")
         if not 0.0 <= self.damping < 1.0:
             raise InputError(f"scf.damping: {self.damping!r} must be in [0, 1); the default is 0.5")
 

@@ -133,7 +133,7 @@ def test_grid_size_is_known_before_allocation_and_capped(order, growth, first, z
     settings_ = GridSettings(order=order, growth=growth, first_element=first)
     elements, points = grid_size(settings_, z, r_max)
     if points > MAX_GRID_POINTS:
-        with pytest.raises(InputError, match=r"^grid: .* radial points .* above the limit of 1500"):
+        with pytest.raises(InputError, match=rf"^grid: .* radial points .* above the limit of {MAX_GRID_POINTS}"):
             build_grid(settings_, z, r_max)
     else:
         grid = build_grid(settings_, z, r_max)

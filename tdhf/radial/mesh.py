@@ -169,13 +169,14 @@ FIRST_ELEMENT_TIMES_Z = 0.1
 MIN_FIRST_ELEMENT = 1e-4
 #: Largest box radius, bohr, given or automatic.
 MAX_R_MAX = 2000.0
-#: Largest number of radial points.  A run holds ~20 dense n x n matrices (Coulomb kernels
-#: V^0..V^(2 l_max + L), one Fock matrix and eigenbasis per symmetry), so 1500 points are ~0.4 GB
-#: and dense eigensolves of ~1 s; the default grids have 110-250 points, the tight preset up to
-#: ~500 and its refinement (``--certify``) up to ~800 at the largest box.
-MAX_GRID_POINTS = 1500
-#: Dense n x n float64 matrices a run holds at most (for the memory estimate in messages).
-_MATRICES_PER_RUN = 20
+#: Largest number of radial points.  Measured peak memory of a Rn ground state (4 symmetries, DIIS
+#: history of 10): 1.9 GB at 1079 points, 3.6 GB at 1475, i.e. ~200 dense n x n float64 matrices,
+#: most of them the DIIS history; the response adds little.  1000 points: ~1.6 GB, ~30 s.  The
+#: default grids have 110-250 points, the tight preset up to ~500 and its refinement
+#: (``--certify``) up to ~800 at the largest box.
+MAX_GRID_POINTS = 1000
+#: Dense n x n float64 matrices a run holds at its peak (for the memory estimate in messages).
+_MATRICES_PER_RUN = 200
 
 
 @dataclass(frozen=True)
