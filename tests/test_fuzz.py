@@ -18,6 +18,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 import tdhf.cli
+import tdhf.series  # imported before tdhf.driver.run_deck is patched, so it binds the real one
 from tdhf.deck import build_deck, parse_deck
 from tdhf.errors import InputError
 from tdhf.radial.mesh import MAX_GRID_POINTS, GridSettings, build_grid, grid_size
