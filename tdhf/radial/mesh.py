@@ -247,7 +247,7 @@ def grid_size(settings: GridSettings, nuclear_charge: float, r_max: float) -> tu
     """
     first, growth = _first_element(settings, nuclear_charge, r_max), settings.growth
     estimate = math.log1p(r_max * (growth - 1.0) / first) / math.log1p(growth - 1.0)
-    if estimate > MAX_GRID_POINTS:  # far too many: no need for the exact count (g^N may overflow)
+    if estimate > MAX_GRID_POINTS:  # more elements than points allowed: the exact count (g^N may overflow) is moot
         n_elements = math.ceil(estimate)
     else:
         n_elements = max(2, math.ceil(estimate) - 1)
@@ -258,15 +258,15 @@ def grid_size(settings: GridSettings, nuclear_charge: float, r_max: float) -> tu
     return n_elements, n_elements * settings.order - 1
 
 
-def check_grid_size(settings: GridSettings, nuclear_charge: float, r_max: float) -> int:
-    """Radial points of the grid, after checking they stay within MAX_GRID_POINTS.
+def check_grid_size(settings: GridSettings, nuclear_charge: float, r_max: float) -> tuple[int, int]:
+    """:func:`grid_size`, after checking that the points stay within MAX_GRID_POINTS.
 
     Raises
     ------
     GridError
         Before anything is allocated, naming the points and memory the settings would need.
     """
-    _, points = grid_size(settings, nuclear_charge, r_max)
+    n_elements, points = grid_size(settings, nuclear_charge, r_max)
     if points > MAX_GRID_POINTS:
         gigabytes = _MATRICES_PER_RUN * 8.0 * float(points) ** 2 / 1e9
         raise GridError(
@@ -275,7 +275,7 @@ def check_grid_size(settings: GridSettings, nuclear_charge: float, r_max: float)
             f" (~{gigabytes:.2g} GB) to reach r = {r_max:g} bohr, above the limit of {MAX_GRID_POINTS};"
             " use a larger grid.growth or grid.first_element, or a lower grid.order (defaults: 10, 1.9, 0.1/Z)"
         )
-    return points
+    return n_elements, points
 
 
 def build_grid(settings: GridSettings, nuclear_charge: float, r_max: float) -> RadialGrid:
@@ -283,7 +283,6 @@ def build_grid(settings: GridSettings, nuclear_charge: float, r_max: float) -> R
 
     Raises GridError (:func:`check_grid_size`) rather than allocate more than MAX_GRID_POINTS.
     """
-    check_grid_size(settings, nuclear_charge, r_max)
-    n_elements, _ = grid_size(settings, nuclear_charge, r_max)
+    n_elements, _ = check_grid_size(settings, nuclear_charge, r_max)
     first = _first_element(settings, nuclear_charge, r_max)
     return RadialGrid.from_boundaries(geometric_boundaries(first, r_max, n_elements), settings.order)
