@@ -359,8 +359,10 @@ def _stdout_console(stdout: TextIO) -> "Console":
     return console if console.is_terminal else ResultsConsole(file=stdout, width=FILE_WIDTH)
 
 
-def _to_stdout(stdout: TextIO, draw: Any) -> None:
+def _to_stdout(stdout: TextIO | None, draw: Any) -> None:
     """``draw(console)`` on stdout; a closed or full stdout is an output failure (exit 4), not a bug."""
+    if stdout is None:  # the process was started with stdout closed
+        raise OutputError("stdout: it is closed; cannot print the results (use -q, or --json)")
     try:
         draw(_stdout_console(stdout))
         stdout.flush()

@@ -149,3 +149,17 @@ def test_decks_are_data_only(tmp_path, text, key):
     (line,) = err.splitlines()
     assert line.startswith(f"tdhf: error: {key}")
     assert sorted(p.name for p in tmp_path.iterdir()) == ["deck.toml"]
+
+
+@pytest.mark.parametrize("redirect, reason", [(">/dev/full", "No space left on device"), (">&-", "it is closed"),
+                                              ("| true", "Broken pipe")], ids=["full", "closed", "broken-pipe"])
+def test_stdout_that_cannot_take_the_results_is_an_output_failure(tmp_path, redirect, reason):
+    import shlex
+    import subprocess
+    import sys
+
+    command = f"set -o pipefail; {shlex.quote(sys.executable)} -m tdhf atom Ne {redirect}"  # pipefail: tdhf's code
+    run = subprocess.run(["bash", "-c", command], cwd=tmp_path, capture_output=True, text=True, timeout=120)
+    assert run.returncode == 4, run.stderr
+    (line,) = run.stderr.splitlines()
+    assert line.startswith("tdhf: error: stdout: ") and reason in line
