@@ -89,6 +89,18 @@ def run_series(
             raise InputError(f"series --out {out_dir}: the deck {deck} would be overwritten by its own result")
     check_output_folder(out_dir, "series --out")
     entries: dict[int, SeriesEntry] = {}
+    try:
+        _run_all(decks, outputs, resume, report, entries)
+    except KeyboardInterrupt:  # between two decks: the next one is the interrupted one
+        unfinished = [k for k in range(len(decks)) if k not in entries]
+        if unfinished:
+            entries[unfinished[0]] = _entry(decks[unfinished[0]], "", "interrupted", "interrupted before it ran")
+    return tuple(entries[k] for k in sorted(entries))
+
+
+def _run_all(decks: list[Path], outputs: list[Path], resume: bool, report: Callable[[str], None],
+             entries: dict[int, SeriesEntry]) -> None:
+    """Fill ``entries`` deck by deck (stopping at an interrupted one)."""
     pending = list(range(len(decks)))
     for wait in (False, True):  # first every deck no other series holds, then the others
         held_elsewhere = []
@@ -102,11 +114,11 @@ def run_series(
                     entries[k] = _run_one(decks[k], outputs[k], resume)
             except OSError as err:  # the lock file itself cannot be made: the folder changed under us
                 entries[k] = _entry(decks[k], "", "output error",
-                                    f"series --out {out_dir}: cannot claim {outputs[k].name}: {err.strerror or err}")
+                                    f"series --out {outputs[k].parent}: cannot claim {outputs[k].name}:"
+                                    f" {err.strerror or err}")
             if entries[k].status == "interrupted":
-                return tuple(entries[i] for i in sorted(entries))
+                return
         pending = held_elsewhere
-    return tuple(entries[i] for i in sorted(entries))
 
 
 def _entry(path: Path, output: Path | str, status: str, message: str, result: RunResult | None = None) -> SeriesEntry:

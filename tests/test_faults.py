@@ -333,3 +333,17 @@ def test_a_folder_that_becomes_unusable_during_a_series_is_an_output_error(tmp_p
     monkeypatch.setattr(files.os, "open", no_lock)
     (entry,) = run_series(decks, tmp_path / "out")
     assert entry.status == "output error" and "cannot claim he.json: Permission denied" in entry.message
+
+
+def test_an_interrupt_between_two_decks_is_recorded_against_the_next(tmp_path):
+    decks = write_decks(tmp_path, a_he=HE, b_li='[atom]\nelement = "Li"\ncharge = 1\n')
+    calls = []
+
+    def progress(stage):
+        calls.append(stage)
+        if len(calls) == 2:
+            raise KeyboardInterrupt
+
+    entries = run_series(decks, tmp_path / "out", progress=progress)
+    assert [e.status for e in entries] == ["ok", "interrupted"]
+    assert visible(tmp_path / "out") == ["a_he.json"]
