@@ -49,7 +49,7 @@ class SeriesEntry:
     ``status`` is one of STATUSES: "ok"; "skipped" (a valid result file was there, with
     ``resume``); "input error"; "rejected" (some real frequencies refused, the rest written);
     "not converged" (results written and flagged); "output error" (computed, but the result file
-    could not be written: ``result`` holds the results); "internal error" (a bug, isolated);
+    could not be written: ``result`` holds the results, else it is None); "internal error" (a bug, isolated);
     "interrupted".  ``warnings`` are the result's notes.
     """
 
@@ -126,7 +126,8 @@ def _entry(path: Path, output: Path | str, status: str, message: str, result: Ru
         deck=str(path), output=str(output), status=status,
         system=result.atom.name if result else None,
         total_energy=result.ground_state.total_energy if result else None,
-        message=message, warnings=result.warnings if result else (), result=result,
+        message=message, warnings=result.warnings if result else (),
+        result=result if status == "output error" else None,  # only unsaved results are kept in memory
     )
 
 
