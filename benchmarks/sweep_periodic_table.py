@@ -6,7 +6,7 @@ Prints one row per system: converged (every solve), SCF iterations, wall time of
 the certification, E (hartree), alpha_1(0) (bohr^3), the certified digits of E and alpha
 (-log10 of the relative change under certification), and notes (warnings) shortened.
 
-    python benchmarks/sweep_periodic_table.py                 # everything, ~10 min on 2 cores
+    python benchmarks/sweep_periodic_table.py                 # everything, ~25 min on 2 cores
     python benchmarks/sweep_periodic_table.py --no-certify    # convergence and alpha only
     python benchmarks/sweep_periodic_table.py --systems He Ne Xe6+
 """
