@@ -136,6 +136,13 @@ def solve_ground_state(
         r_max = min(1.15 * BOX_DECAY / np.sqrt(-2.0 * homo), MAX_R_MAX)
         logger.info("box enlarged to %.1f bohr (kappa R was %.1f)", r_max, decay)
     notes = []
+    first = grid_settings.first_element
+    if first is not None and first * system.Z > 1.0:
+        notes.append(
+            f"grid.first_element: {first:g} bohr is larger than the 1s orbital of {system.name} (size 1/Z ="
+            f" {1.0 / system.Z:.3g} bohr), so the nucleus is not resolved and the energy can be far off;"
+            f" leave it out for the default 0.1/Z"
+        )
     if decay < BOX_DECAY:
         notes.append(
             f"grid.r_max: the outermost orbital has decayed only to exp(-{decay:.1f}) at r = {r_max:g} bohr;"

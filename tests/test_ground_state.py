@@ -379,3 +379,10 @@ def test_user_box_too_small_warns_and_keeps_the_box():
     assert state.r_max == 10.0
     assert state.box_decay < BOX_DECAY
     assert any(note.startswith("grid.r_max") for note in state.warnings)
+
+
+def test_a_first_element_wider_than_the_1s_orbital_warns():
+    """Ne with a 1 bohr first element (10x its 1s size 1/Z): the energy is far off, and says so."""
+    with pytest.warns(RuntimeWarning, match=r"grid\.first_element: 1 bohr is larger than the 1s orbital"):
+        state = solve_ground_state(System.from_input("Ne"), GridSettings(first_element=1.0))
+    assert abs(state.total_energy - (-128.5470981)) > 1e-3  # Ne HF limit (from memory), missed
