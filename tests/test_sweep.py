@@ -3,10 +3,11 @@ He, Ne, Ar, Kr, Xe and Rn isoelectronic sequences (monoanion to +10) converge at
 and have a static dipole polarizability.  The whole sweep is slow-marked; a cheap subset runs by
 default.  ``benchmarks/sweep_periodic_table.py`` prints the table with certified digits.
 
-Physics checks that can fail (common practice, no source): SCF convergence with the box test
-passed; the virial ratio -V/T = 2 of the exact HF solution (to 1e-7, the default grid's
-accuracy in energies relative to their size, measured 1e-9..1e-8); alpha_1(0) > 0; and along each
-isoelectronic sequence alpha_1(0) falls strictly as Z grows (the hydrogenic Z^-4 scaling).
+Physics checks that can fail: SCF convergence with the box test passed (common practice, no
+source); the virial theorem -V/T = 2 of the exact HF solution (analytic; to 1e-7, well above the
+default grid's 1e-9..1e-8 seen in the sweep); alpha_1(0) > 0 (analytic: a sum of positive terms);
+and along each isoelectronic sequence alpha_1(0) falls strictly as Z grows (analytic for the
+hydrogenic limit, alpha ~ Z^-4; common practice, no source, for the screened sequences).
 """
 
 from __future__ import annotations
