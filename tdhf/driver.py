@@ -17,7 +17,6 @@ True -2.861680
 
 from __future__ import annotations
 
-import importlib.metadata
 import logging
 import warnings
 from dataclasses import dataclass, field
@@ -39,6 +38,7 @@ from tdhf.radial.mesh import GridSettings
 from tdhf.response.solver import ResponseTolerances
 from tdhf.scf import ScfSettings
 from tdhf.system import System
+from tdhf.version import ProgramInfo, program_info
 
 __all__ = ["ProgramInfo", "RunSettings", "RunResult", "Certification", "Conventions", "run_deck", "program_info",
            "RESPONSE_FIELDS"]
@@ -74,23 +74,6 @@ class Conventions:
         " enlarged 1.5x, the SCF/Krylov/eigensolver tolerances tightened 100x and (C_n) the quadrature enlarged;"
         " <key>_uncertainty = 2 |difference| (absolute, same unit); absent when the run was not certified"
     )
-
-
-@dataclass(frozen=True)
-class ProgramInfo:
-    """Name and installed version of the program that made a result."""
-
-    name: str
-    version: str
-
-
-def program_info() -> ProgramInfo:
-    """``ProgramInfo("tdhf", <installed version>)``; version "unknown" if tdhf is not installed."""
-    try:
-        version = importlib.metadata.version("tdhf")
-    except importlib.metadata.PackageNotFoundError:
-        version = "unknown"
-    return ProgramInfo(name="tdhf", version=version)
 
 
 @dataclass(frozen=True)
