@@ -85,7 +85,7 @@ class _Version(argparse.Action):
                          help="show the program's version and exit")
 
     def __call__(self, parser, namespace, values, option_string=None) -> None:
-        from tdhf.driver import program_info
+        from tdhf.version import program_info
 
         print(f"tdhf {program_info().version}")
         parser.exit()
