@@ -28,7 +28,7 @@ from typing import Iterator
 
 from tdhf.driver import RunResult
 
-__all__ = ["Quantity", "quantities", "key_of", "multipole_unit"]
+__all__ = ["Quantity", "quantities", "key_of", "multipole_unit", "property_unit"]
 
 
 @dataclass(frozen=True)
@@ -115,12 +115,13 @@ def _rows(result: RunResult) -> Iterator[Quantity]:
         counters[row.multipole] = counters.get(row.multipole, 0) + 1
         common = dict(multipole=row.multipole, index=counters[row.multipole], level="coupled", converged=row.converged)
         yield Quantity(name, "excitation_energy", row.energy, "hartree", f"excitations[{i}].energy", **common)
-        yield Quantity(name, "oscillator_strength", row.oscillator_strength, "1",
+        yield Quantity(name, "oscillator_strength", row.oscillator_strength,
+                       property_unit("oscillator_strength", row.multipole),
                        f"excitations[{i}].oscillator_strength", **common)
     for i, row in enumerate(result.dispersion):
         first, second = row.pair
         for order, value in (("C6", row.C6), ("C8", row.C8), ("C10", row.C10)):
-            yield Quantity(first, order, value, f"hartree bohr^{order[1:]}", f"dispersion[{i}].{order}",
+            yield Quantity(first, order, value, property_unit(order), f"dispersion[{i}].{order}",
                            partner=second, level="coupled", converged=row.converged)
 
 
@@ -132,3 +133,21 @@ def _sum_rule_unit(multipole: int, k: int) -> str:
     if multipole > 1:
         parts.append(f"bohr^{2 * multipole - 2}")
     return " ".join(parts) if parts else "1"
+
+
+def property_unit(property: str, multipole: int | None = None, k: int | None = None) -> str:
+    """The atomic unit of a property in words, e.g. ``property_unit("C6") == "hartree bohr^6"``.
+
+    Oscillator strengths f = 2 omega |<n|r^L P_L|0>|^2 are in bohr^(2L-2) (dimensionless for L = 1).
+    """
+    if property in ("total_energy", "orbital_energy", "excitation_energy"):
+        return "hartree"
+    if property.startswith("polarizability"):
+        return multipole_unit(multipole)
+    if property == "sum_rule":
+        return _sum_rule_unit(multipole, k)
+    if property == "oscillator_strength":
+        return _sum_rule_unit(multipole, 0)
+    if property in ("C6", "C8", "C10"):
+        return f"hartree bohr^{property[1:]}"
+    return "1"

@@ -30,7 +30,7 @@ if TYPE_CHECKING:  # only for annotations: the report layer reads results, it do
     from tdhf.driver import RunResult
     from tdhf.ground_state import GroundState
 
-__all__ = ["print_report", "header_line", "ground_state_table", "orbital_table", "rows_table", "format_value",
+__all__ = ["print_report", "header_line", "new_table", "MISSING", "ground_state_table", "orbital_table", "rows_table", "format_value",
            "Column", "ROW_TABLES", "SERIES_COLUMNS", "UNCERTIFIED_DIGITS"]
 
 MISSING = "-"
@@ -67,7 +67,7 @@ def format_value(value: float, uncertainty: float | None) -> str:
     return f"{value:.{digits}e}({units})"
 
 
-def _new_table(title: str) -> Table:
+def new_table(title: str) -> Table:
     """A table in the house style: light rules, units on a second header line."""
     return Table(title=title, title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False)
 
@@ -232,7 +232,7 @@ def header_line(result: "RunResult") -> Text:
 def ground_state_table(state: "GroundState", uncertainties: Mapping[str, float] | None = None) -> Table:
     """Energy components, virial ratio, density at the nucleus, convergence and grid."""
     known = uncertainties or {}
-    table = _new_table("Hartree-Fock ground state")
+    table = new_table("Hartree-Fock ground state")
     _add_column(table, "quantity", "left")
     _add_column(table, "value")
     _add_column(table, "unit", "left")
@@ -261,7 +261,7 @@ def ground_state_table(state: "GroundState", uncertainties: Mapping[str, float] 
 def orbital_table(state: "GroundState", uncertainties: Mapping[str, float] | None = None) -> Table:
     """One row per occupied subshell: occupation, energy (hartree and eV), <r> and <r^2>."""
     known = uncertainties or {}
-    table = _new_table("Orbitals")
+    table = new_table("Orbitals")
     for header in ("orbital", "occ.", "energy\n(hartree)", "energy\n(eV)", "<r>\n(bohr)", "<r^2>\n(bohr^2)"):
         _add_column(table, header, "left" if header == "orbital" else "right")
     for i, orbital in enumerate(state.orbitals):
@@ -290,7 +290,7 @@ def rows_table(
     With ``list_name`` (the RunResult field of the rows) the numbers of key columns are printed
     with the digits their uncertainty allows, looked up by key path in ``uncertainties``.
     """
-    table = _new_table(title)
+    table = new_table(title)
     columns = [c for c in columns if not c.optional or any(c.value(row) not in (None, 0, 0.0) for row in rows)]
     for column in columns:
         _add_column(table, column.header)
