@@ -1,9 +1,9 @@
 """He: our numerical-grid TDHF against Gaussian-basis TDHF from a general-purpose library (PySCF).
 
-The issue's goal: the He-He C6 (and, on the way, the HF energy, alpha_1(0) and the lowest 1P
+The claim tested: the He-He C6 (and, on the way, the HF energy, alpha_1(0) and the lowest 1P
 excitation) agrees with a large-basis TDHF computation by a general-purpose Gaussian-basis code
 within that basis's own error, which shrinks as the basis grows; our value is the limit the basis
-sequence approaches.  Evidence of kind 2 (cross-implementation) and 3 (convergence) of STYLE.md.
+sequence approaches.  Evidence of two kinds: cross-implementation agreement and convergence.
 
 Reference library: PySCF (Q. Sun et al., "PySCF: the Python-based simulations of chemistry
 framework", WIREs Comput. Mol. Sci. 8, e1340 (2018); from memory).  PySCF supplies the Gaussian
@@ -111,7 +111,7 @@ AUG_CC = ("aug-cc-pvdz", "aug-cc-pvtz", "aug-cc-pvqz", "aug-cc-pv5z")
 #: 2.0e-3 (5Z C6).  The sequence is not monotone in these (module docstring).
 AUG_CC_LARGE_RTOL = 2.5e-3
 
-#: Our He numbers as quoted in the issue (self-regression of this code, default settings):
+#: Our He numbers (SELF-REGRESSION of this code, default settings, 8 digits):
 #: E_HF, alpha_1(0), C6, lowest 1P TDHF excitation.  The test uses the values computed below; these
 #: only confirm the run reproduces the quoted numbers.
 QUOTED_OURS = {"energy": -2.8616799956, "alpha": 1.3222337, "c6": 1.3756227, "excitation": 0.79697443}

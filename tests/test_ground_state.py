@@ -1,8 +1,10 @@
 """Tests of closed-shell Hartree–Fock ground states (tdhf.ground_state, tdhf.scf).
 
-Evidence, in the order of STYLE.md: exact invariants (one-electron limits, virial theorem, Kato
-cusp, orthonormality), observed convergence under grid refinement, published numerical-HF values
-(source beside each number), and the documented behaviour of the SCF and the automatic box.
+Evidence: exact invariants (one-electron limits, virial theorem, Hellmann-Feynman theorem, Kato
+cusp, orthonormality), variational upper bounds computed independently (an analytic trial function;
+Gaussian-basis RHF of a general-purpose library), observed convergence under grid refinement,
+published numerical-HF values (source beside each number), and the documented behaviour of the
+SCF and the automatic box.
 
 All energies are in hartree, lengths in bohr.
 """
@@ -13,11 +15,14 @@ from decimal import Decimal
 
 import numpy as np
 import pytest
+from roundoff import U, gamma
 
 from tdhf.errors import ConfigurationError, GridError, InputError
 from tdhf.ground_state import BOX_DECAY, ANION_R_MAX, solve_ground_state
+from tdhf.numerics.threads import single_blas_thread
 from tdhf.radial.mesh import GridSettings
-from tdhf.scf import ENERGY_ROUNDOFF, ScfSettings
+from tdhf.radial.poisson import coulomb_kernels
+from tdhf.scf import ENERGY_ROUNDOFF, ScfSettings, solve_scf
 from tdhf.system import System
 
 
@@ -43,7 +48,7 @@ def quoted_tolerance(value: str) -> float:
 # --- published numerical Hartree–Fock limits ------------------------------------------------
 
 # He total energy -2.861679995612: Hatano & Yamamoto, J. Comput. Chem. Jpn. Int. Ed. 11 (2025);
-# also Cinal, J. Math. Chem. 58 (2020). From memory (quoted in the task brief), not re-read.
+# also Cinal, J. Math. Chem. 58 (2020). From memory, not re-read.
 HELIUM_ENERGY = -2.861679995612
 # He 1s orbital energy -0.917955563: numerical HF literature (e.g. Cinal, J. Math. Chem. 58 (2020)),
 # from memory.
@@ -56,20 +61,21 @@ NEON_ENERGY = -128.5470981094
 NEON_ORBITAL_ENERGIES = {"1s": "-32.77244", "2s": "-1.93039", "2p": "-0.85041"}
 
 
+# Tolerance of each: half a unit in the last quoted digit plus our default-grid error (1e-9).
 def test_helium_total_energy(helium):
-    assert helium.total_energy == pytest.approx(HELIUM_ENERGY, abs=1e-8)
+    assert helium.total_energy == pytest.approx(HELIUM_ENERGY, abs=quoted_tolerance(str(HELIUM_ENERGY)))
 
 
 def test_helium_1s_orbital_energy(helium):
-    assert helium.orbitals[0].energy == pytest.approx(HELIUM_1S_ENERGY, abs=1e-7)
+    assert helium.orbitals[0].energy == pytest.approx(HELIUM_1S_ENERGY, abs=quoted_tolerance(str(HELIUM_1S_ENERGY)))
 
 
 def test_beryllium_total_energy(beryllium):
-    assert beryllium.total_energy == pytest.approx(BERYLLIUM_ENERGY, abs=1e-8)
+    assert beryllium.total_energy == pytest.approx(BERYLLIUM_ENERGY, abs=quoted_tolerance(str(BERYLLIUM_ENERGY)))
 
 
 def test_neon_total_energy(neon):
-    assert neon.total_energy == pytest.approx(NEON_ENERGY, abs=1e-8)
+    assert neon.total_energy == pytest.approx(NEON_ENERGY, abs=quoted_tolerance(str(NEON_ENERGY)))
 
 
 @pytest.mark.parametrize("label", NEON_ORBITAL_ENERGIES)
@@ -81,7 +87,7 @@ def test_neon_orbital_energies(neon, label):
 
 # Numerical HF total energies, values from memory of the numerical HF literature (e.g. S. L. Saito,
 # At. Data Nucl. Data Tables 95, 836 (2009) for neutral atoms; Koga and co-workers' tables for ions),
-# digits as recalled in the task brief, not re-read.  Tolerance: half a unit in the last digit.
+# digits as recalled, not re-read.  Tolerance: half a unit in the last digit plus our grid error.
 LIGHT_REFERENCES = {
     "Mg": ("Mg", 0, "-199.6146364"),
     "Ar": ("Ar", 0, "-526.8175128"),
@@ -123,19 +129,37 @@ def test_total_energy_heavy_atoms(element, charge, quoted):
     check_reference(element, charge, quoted)
 
 
-# Roothaan–HF (basis-set) energies are variational upper bounds to the HF limit.  Values of
-# Koga et al., Int. J. Quantum Chem. 71, 491 (1999), from memory.  Unsure of the last digits, we use
-# digits that coincide with the HF limit truncated towards zero, which keeps each an upper bound to
-# the exact HF energy whatever the basis-set error was.
-ROOTHAAN_UPPER_BOUNDS = {"helium": -2.8616799956, "neon": -128.5470981, "argon": -526.8175128}
+#: Variational upper bound for He, analytic: the single-zeta determinant 1s^2 with P = r e^(-zeta r)
+#: has E(zeta) = zeta^2 - 27 zeta / 8, lowest at zeta = 27/16: E = -(27/16)^2 = -2.84765625 hartree
+#: (textbook variational calculation, re-derived here).  HF is the best single determinant, so
+#: E_HF < E(27/16); the margin (0.014 hartree) is far above our grid error.
+HELIUM_SINGLE_ZETA_BOUND = -(27 / 16) ** 2
 
 
-@pytest.mark.parametrize("atom", list(ROOTHAAN_UPPER_BOUNDS))
-def test_energy_lies_just_below_roothaan_upper_bound(request, atom):
+def test_helium_energy_lies_below_the_single_zeta_variational_bound(helium):
+    assert helium.total_energy < HELIUM_SINGLE_ZETA_BOUND
+
+
+#: Gaussian-basis RHF energies are variational upper bounds to the HF limit; computed here with a
+#: general-purpose library (PySCF, cc-pVQZ; Q. Sun et al., WIREs Comput. Mol. Sci. 8, e1340 (2018),
+#: from memory).  Our energies must lie below them; the basis error of cc-pVQZ is ~1e-3 hartree
+#: for Ne and Ar (measured: Ne 1.1e-3, Ar 7.3e-4 above our values), so a grid error that lifted our
+#: energy above the basis value would be caught, and the gap is bounded by 5e-3 to catch a wrong basis.
+@pytest.mark.slow
+@pytest.mark.parametrize("atom, symbol", [("neon", "Ne"), ("argon", "Ar")])
+def test_energy_lies_below_a_gaussian_basis_variational_bound(request, atom, symbol):
+    pyscf = pytest.importorskip("pyscf")
     state = request.getfixturevalue(atom)
-    bound = ROOTHAAN_UPPER_BOUNDS[atom]
-    assert state.total_energy < bound
-    assert bound - state.total_energy < 1e-4
+    mol = pyscf.gto.M(atom=f"{symbol} 0 0 0", basis="cc-pvqz", verbose=0)
+    rhf = pyscf.scf.RHF(mol)
+    scratch = getattr(rhf, "_chkfile", None)
+    if scratch is not None:  # no checkpoint file: one left to the garbage collector warns later
+        scratch.close()
+    rhf.chkfile = None
+    rhf.conv_tol = 1e-11
+    bound = rhf.kernel()
+    assert rhf.converged
+    assert 0.0 < bound - state.total_energy < 5e-3
 
 
 # --- exact invariants ------------------------------------------------------------------------
@@ -150,34 +174,84 @@ def test_fixture_converged_cleanly(request, atom):
     assert state.box_decay >= BOX_DECAY
 
 
+#: How well the virial theorem and Kato's cusp condition hold for the converged SCF on the default
+#: grid: measured |-V/T - 2| <= 7e-12 and |cusp - 1| <= 6e-11 for He, Be, Ne, Ar and the
+#: one-electron ions on GridSettings() and GridSettings.tight().  Both are first order in the
+#: remaining orbital error, which the SCF stops below its residual tolerance 1e-9 (final orbital
+#: changes 2e-11 .. 4e-10 here, the error itself smaller still); an SCF that stopped a step earlier
+#: on another machine could reach ~1e-10, so 1e-9 bounds both with room.
+VIRIAL_ATOL = 1e-9
+CUSP_ATOL = 1e-9
+
+
 @pytest.mark.parametrize("atom", FIXTURES)
 def test_virial_ratio_is_two(request, atom):
     # -V/T = 2 holds exactly for the HF solution with a point nucleus (virial theorem).
-    assert request.getfixturevalue(atom).virial_ratio == pytest.approx(2.0, abs=1e-8)
+    assert request.getfixturevalue(atom).virial_ratio == pytest.approx(2.0, abs=VIRIAL_ATOL)
 
 
 @pytest.mark.parametrize("atom", FIXTURES)
 def test_kato_cusp_ratio_is_one(request, atom):
     # Kato's theorem: rho'(0) = -2 Z rho(0), satisfied by the exact HF orbitals too.
-    assert request.getfixturevalue(atom).cusp_ratio == pytest.approx(1.0, abs=1e-6)
+    assert request.getfixturevalue(atom).cusp_ratio == pytest.approx(1.0, abs=CUSP_ATOL)
 
 
 @pytest.mark.parametrize("atom", FIXTURES)
 def test_orbitals_orthonormal_within_each_symmetry(request, atom):
+    """Eigenvectors of one symmetric eigen-decomposition are orthonormal to O(n U) (LAPACK's
+    bound for well-separated eigenvalues; measured <= 0.06 n U here), and the Gram product adds
+    gamma(n): tolerance 2 gamma(n)."""
     state = request.getfixturevalue(atom)
     for l in set(state.shells.l.tolist()):
         block = state.shells.orbitals[state.shells.l == l]
-        np.testing.assert_allclose(block @ block.T, np.eye(len(block)), rtol=0, atol=1e-12)
+        np.testing.assert_allclose(block @ block.T, np.eye(len(block)), rtol=0, atol=2 * gamma(state.grid_points))
+
+
+@single_blas_thread
+def hellmann_feynman_derivative(state, step: float = 1e-2) -> tuple[float, float]:
+    """dE/dZ at fixed grid and configuration by the five-point rule, and its error bound.
+
+    Truncation: step^4 |E^(5)| / 30, with |E^(5)| < 1 hartree for these atoms (E(Z) is smooth,
+    ~-Z^2 N/2 plus slowly varying terms), i.e. < 4e-10.  Noise: each SCF energy is converged to
+    max(1e-12, ENERGY_ROUNDOFF |E|), which the rule's weights (sum 18/12) divide by step.
+    """
+    kernels = coulomb_kernels(state.grid, 2 * max(s.l for s in state.system.subshells))
+    energies = {k: solve_scf(state.grid, state.system.Z + k * step, state.system.subshells, ScfSettings(),
+                             kernels=kernels) for k in (-2, -1, 1, 2)}
+    assert all(solution.converged for solution in energies.values())
+    e = {k: solution.total_energy for k, solution in energies.items()}
+    derivative = (e[-2] - 8 * e[-1] + 8 * e[1] - e[2]) / (12 * step)
+    noise = 18 / 12 * max(1e-12, ENERGY_ROUNDOFF * abs(state.total_energy)) / step
+    return derivative, step**4 / 30 + noise
 
 
 @pytest.mark.parametrize("atom", FIXTURES)
-def test_energy_components_are_consistent(request, atom):
+def test_nuclear_attraction_energy_obeys_hellmann_feynman(request, atom):
+    """dE/dZ = <dH/dZ> = -sum_i <1/r_i> = V_ne / Z (Hellmann-Feynman theorem, exact for the
+    variational HF energy at fixed N): the nuclear-attraction component against an independent
+    route, SCF energies at Z +- h, +-2h on the same grid."""
     state = request.getfixturevalue(atom)
-    parts = state.kinetic_energy + state.nuclear_attraction_energy + state.coulomb_energy + state.exchange_energy
-    assert parts == pytest.approx(state.total_energy, abs=1e-12 * abs(state.total_energy))
+    derivative, bound = hellmann_feynman_derivative(state)
+    assert abs(derivative - state.nuclear_attraction_energy / state.system.Z) <= bound
+
+
+@pytest.mark.parametrize("atom", FIXTURES)
+def test_energy_components_have_the_physical_signs(request, atom):
+    state = request.getfixturevalue(atom)
     assert state.kinetic_energy > 0 and state.coulomb_energy > 0 and state.exchange_energy < 0
     # Electron count from the orbitals: every subshell is filled.
     assert sum(o.occupation for o in state.orbitals) == state.system.electrons
+
+
+def test_helium_exchange_is_minus_half_the_coulomb_energy(helium):
+    """For 1s^2 the exchange integral equals the direct one, K = J = F^0(1s,1s), so E_x = -E_J/2
+    exactly (analytic); the two come from different operators in tdhf (the exchange operator with its
+    3j factor, the Hartree potential).  Round-off: each is the bilinear form d^T V^0 d of d = p^2,
+    a matrix-vector product and a dot product, within 2 gamma(n) + 4 U of d^T |V^0| d."""
+    pair = helium.shells.orbitals[0] ** 2
+    absolute = pair @ np.abs(coulomb_kernels(helium.grid, 0)[0]) @ pair
+    bound = 3 * (2 * gamma(helium.grid_points) + 4 * U) * absolute  # E_J = 2 d V d, E_x = -d V d
+    assert abs(helium.exchange_energy + 0.5 * helium.coulomb_energy) <= bound
 
 
 def test_orbital_energies_ordered_as_expected(neon, argon):
@@ -188,16 +262,20 @@ def test_orbital_energies_ordered_as_expected(neon, argon):
 
 @pytest.mark.parametrize("element, charge", [("H", 0), ("He", 1), ("Li", 2)], ids=["H", "He+", "Li2+"])
 def test_one_electron_ions_are_exactly_hydrogenic(element, charge):
+    """Analytic hydrogen-like 1s: E = eps = -Z^2/2, <r> = 3/(2Z), rho(0) = Z^3/pi.
+
+    Measured deviations on the default and the tight grid: energies <= 2.2e-13, <r> <= 9e-13 and
+    rho(0) <= 4e-12 relative (round-off: they grow, not shrink, on the tight grid), virial <= 3e-12,
+    cusp <= 6e-11.  Tolerances: 1e-11 relative for the energies (a self-interaction J = 5Z/8 would
+    miss by 0.6), 1e-10 for <r> and rho(0), and VIRIAL_ATOL, CUSP_ATOL."""
     state = solve_default(element, charge, configuration="1s1")
     z = state.system.Z
-    # Analytic hydrogen-like 1s: E = -Z^2/2, <r> = 3/(2Z), rho(0) = Z^3/pi.
-    assert state.total_energy == pytest.approx(-0.5 * z**2, abs=1e-10)
-    assert state.orbitals[0].energy == pytest.approx(-0.5 * z**2, abs=1e-10)
-    assert state.mean_r == pytest.approx(1.5 / z, abs=1e-10)
-    assert state.density_at_nucleus == pytest.approx(z**3 / np.pi, rel=1e-10)
-    assert state.coulomb_energy == 0.0 and state.exchange_energy == 0.0
-    assert state.virial_ratio == pytest.approx(2.0, abs=1e-10)
-    assert state.cusp_ratio == pytest.approx(1.0, abs=1e-9)
+    assert state.total_energy == pytest.approx(-0.5 * z**2, rel=1e-11, abs=0)
+    assert state.orbitals[0].energy == pytest.approx(-0.5 * z**2, rel=1e-11, abs=0)
+    assert state.mean_r == pytest.approx(1.5 / z, rel=1e-10, abs=0)
+    assert state.density_at_nucleus == pytest.approx(z**3 / np.pi, rel=1e-10, abs=0)
+    assert state.virial_ratio == pytest.approx(2.0, abs=VIRIAL_ATOL)
+    assert state.cusp_ratio == pytest.approx(1.0, abs=CUSP_ATOL)
 
 
 # --- convergence under grid refinement -------------------------------------------------------
@@ -268,8 +346,6 @@ def test_history_approaches_final_energy(request, atom):
     state = request.getfixturevalue(atom)
     iterations, energies, changes, orbital_changes = (np.array(column) for column in zip(*state.history))
     np.testing.assert_array_equal(iterations, np.arange(1, state.iterations + 1))
-    assert energies[-1] == pytest.approx(state.total_energy, abs=1e-12 * abs(state.total_energy))
-    assert orbital_changes[-1] == state.orbital_change
     # The starting guess is above the HF energy (variational), and the error shrinks to round-off:
     # each error is at most the previous one, once both are above the 1e-13 |E| floor.
     errors = np.abs(energies - state.total_energy)
@@ -344,7 +420,7 @@ def test_excited_closed_shell_configuration_helium_2s2(helium):
     # A doubly excited state: above the ground state and above the He+ 1s threshold (-2 hartree).
     assert state.total_energy > helium.total_energy
     assert state.total_energy > -2.0
-    assert state.virial_ratio == pytest.approx(2.0, abs=1e-8)
+    assert state.virial_ratio == pytest.approx(2.0, abs=VIRIAL_ATOL)
     # The occupied orbital is the second s solution: exactly one radial node.
     values = state.grid.to_values(state.shells.orbitals[0])
     significant = np.abs(values) > 1e-8 * np.abs(values).max()
@@ -359,9 +435,9 @@ def test_hydrogen_anion_orbital_is_bound_and_the_box_grows():
     # H- HF orbital energy -0.0462 (numerical HF literature, from memory; 4 decimals).
     assert state.orbitals[0].energy == pytest.approx(-0.0462, abs=quoted_tolerance("-0.0462"))
     # Koopmans-bound (negative orbital energy) but, in HF, not bound against H(1s) + e-: the HF
-    # total energy lies above -0.5, a known failure of HF for H- (the exact energy is -0.5278,
-    # numerical literature, from memory).
-    assert -0.5 < state.total_energy < -0.48
+    # total energy lies above -0.5, a known failure of HF for H- (its value is checked in
+    # LIGHT_REFERENCES).
+    assert state.total_energy > -0.5
     assert state.r_max > ANION_R_MAX
     assert state.box_decay >= BOX_DECAY
 

@@ -14,6 +14,8 @@ import math
 import numpy as np
 import pytest
 
+from roundoff import resolvent_bound
+
 from tdhf.certify import certified
 from tdhf.deck import parse_deck
 from tdhf.driver import run_deck
@@ -83,7 +85,11 @@ def test_alpha_between_bound_poles_is_computed_and_box_converged(neon):
     assert row.pole_below == pytest.approx(0.6741, abs=1e-4) and row.pole_above == pytest.approx(0.7818, abs=1e-4)
     large = solve_ground_state(System.from_input("Ne"), GridSettings(r_max=150.0))
     (reference,) = compute_response(large, frequencies=(0.70,)).polarizabilities
-    assert row.coupled == pytest.approx(reference.coupled, rel=1e-9)
+    # Between poles round-off is amplified by 1/(distance to the pole): alpha(0.70) differs by up to
+    # 1.4e-9 between BLAS kernels (OPENBLAS_CORETYPE=Prescott against Haswell), so the derived bound
+    # U lambda_max / gap of each box (2.4e-8, tests/roundoff.py) is added to the 1e-9 of the box.
+    roundoff = resolvent_bound(make_solver(neon), 0.70) + resolvent_bound(make_solver(large), 0.70)
+    assert row.coupled == pytest.approx(reference.coupled, rel=1e-9 + roundoff)
 
 
 def test_frequency_on_a_pole_is_refused_with_the_pole_named(helium):

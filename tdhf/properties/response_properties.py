@@ -286,7 +286,8 @@ def _one_multipole(ground_state: GroundState, L: int, request: _Request, out: _C
     for omega, imaginary in rows:
         known = None if imaginary else work.solved.get(omega)
         _frequency_rows(state, solver, name, omega, imaginary, request, spectrum, velocity, out, known)
-    _sum_rules(state, solver, name, request, spectrum, out)
+    static = work.solved.get(0.0) if request.broadening == 0.0 else None
+    _sum_rules(state, solver, name, request, spectrum, out, static)
 
 
 def _settle_box(ground_state: GroundState, L: int, request: _Request, out: _Collected) -> _Multipole:
@@ -412,11 +413,12 @@ def _frequency_rows(state, solver, name, omega, imaginary, request: _Request, sp
         )
 
 
-def _sum_rules(state, solver, name, request: _Request, spectrum, out: _Collected) -> None:
+def _sum_rules(state, solver, name, request: _Request, spectrum, out: _Collected,
+               static: FirstOrderOrbitals | None = None) -> None:
     L = solver.multipole
     s0_coupled = energy_weighted_sum(solver, request.coupled)
     s0_uncoupled = energy_weighted_sum(solver, False)
-    moments_coupled, status_coupled = cauchy_moments(solver, request.coupled, request.tolerances)
+    moments_coupled, status_coupled = cauchy_moments(solver, request.coupled, request.tolerances, static)
     moments_uncoupled, status_uncoupled = cauchy_moments(solver, False, request.tolerances)
     status = combine(status_coupled, status_uncoupled)
     if not status.converged:

@@ -21,7 +21,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from tdhf.numerics.status import SolveStatus, combine
-from tdhf.response.solver import ResponseSolver, ResponseTolerances
+from tdhf.response.solver import FirstOrderOrbitals, ResponseSolver, ResponseTolerances
 
 __all__ = ["SumRule", "energy_weighted_sum", "second_energy_moment", "cauchy_moments", "exact_energy_weighted_sum"]
 
@@ -61,15 +61,19 @@ def exact_energy_weighted_sum(solver: ResponseSolver) -> float:
 
 
 def cauchy_moments(
-    solver: ResponseSolver, coupled: bool = True, tolerances: ResponseTolerances = ResponseTolerances()
+    solver: ResponseSolver,
+    coupled: bool = True,
+    tolerances: ResponseTolerances = ResponseTolerances(),
+    static: FirstOrderOrbitals | None = None,
 ) -> tuple[tuple[float, float, float], SolveStatus]:
     r"""S(-2), S(-4), S(-6) from three static solves, and the combined status of the solves.
 
     With s = rho+ + rho- of the static response, y = (A - B)^{-1} s and z = (A + B)^{-1} y (the
     static solves with right-hand sides (s, -s) and (y, y)): S(-2) = alpha(0),
-    S(-4) = <s|W|y>/2 and S(-6) = <y|W|z>/2.
+    S(-4) = <s|W|y>/2 and S(-6) = <y|W|z>/2.  ``static`` reuses a static solution already made.
     """
-    static = solver.solve(0.0, coupled, tolerances=tolerances)
+    if static is None:
+        static = solver.solve(0.0, coupled, tolerances=tolerances)
     s = static.plus + static.minus
     antisymmetric = solver.solve(0.0, coupled, rhs=(s, -s), tolerances=tolerances)
     y = antisymmetric.plus
