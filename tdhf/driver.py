@@ -28,6 +28,7 @@ from tdhf.ground_state import GroundState, solve_ground_state
 from tdhf.properties.dispersion import (
     DispersionCoefficients,
     ImaginaryFrequencyTable,
+    TaskMap,
     compute_dispersion,
     dispersion_table,
 )
@@ -207,7 +208,7 @@ class RunResult:
         return {row.quantity: row.uncertainty for row in self.certification}
 
 
-def run_deck(deck: Deck, progress: Progress | None = None) -> RunResult:
+def run_deck(deck: Deck, progress: Progress | None = None, map_tasks: TaskMap | None = None) -> RunResult:
     """Compute everything a deck asks for.
 
     Parameters
@@ -216,6 +217,9 @@ def run_deck(deck: Deck, progress: Progress | None = None) -> RunResult:
         A validated deck (:func:`tdhf.deck.load_deck`).
     progress : callable, optional
         Called with a short description (e.g. ``"ground state of Ne"``) as each stage starts.
+    map_tasks : callable, optional
+        Where the independent responses of a dispersion table run (:mod:`tdhf.execution`);
+        by default here.  The numbers are the same either way.
 
     Returns
     -------
@@ -252,7 +256,7 @@ def run_deck(deck: Deck, progress: Progress | None = None) -> RunResult:
             notes += library_notes
             own_notes += driver_notes
         if deck.dispersion is not None:
-            dispersion_fields, library_notes = _run_dispersion(ground_state, deck.dispersion, deck, report)
+            dispersion_fields, library_notes = _run_dispersion(ground_state, deck.dispersion, deck, report, map_tasks)
             fields |= dispersion_fields
             notes += library_notes
     for note in own_notes:
@@ -286,6 +290,7 @@ def _run_dispersion(
     section: DispersionSection,
     deck: Deck,
     report: Progress,
+    map_tasks: TaskMap | None = None,
 ) -> tuple[dict[str, tuple], tuple[str, ...]]:
     """Dispersion rows, alpha(i w) tables and partner ground states by RunResult field, and the notes.
 
@@ -308,11 +313,11 @@ def _run_dispersion(
 
     if section.partners:
         results = compute_dispersion(ground_state, tuple(others), quadrature_points=section.quadrature_points,
-                                     tolerances=deck.tolerances)
+                                     tolerances=deck.tolerances, map_tasks=map_tasks)
     else:
         series = [ground_state] + [state for state in others if state is not ground_state]
         results = dispersion_table(series, quadrature_points=section.quadrature_points, progress=count,
-                                   tolerances=deck.tolerances)
+                                   tolerances=deck.tolerances, map_tasks=map_tasks)
     fields = {
         "dispersion": tuple(results.coefficients),
         "polarizability_tables": tuple(results.polarizability_tables),
