@@ -19,7 +19,7 @@ the JSON object as it is.  Nothing here draws: :mod:`tdhf.report.plots` does.
 from __future__ import annotations
 
 import warnings
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any, Iterator, Mapping
 
 import numpy as np
@@ -76,12 +76,17 @@ class RealAxisPlot:
     threshold: float
 
 
-def ground_state_of(data: Mapping[str, Any]) -> GroundState:
-    """The ground state of a result file's system, recomputed with its grid and SCF settings."""
+def ground_state_of(data: Mapping[str, Any], r_max: float | None = None) -> GroundState:
+    """The ground state of a result file's system, recomputed with its grid and SCF settings.
+
+    ``r_max`` (bohr) asks for the box a response was computed in, if the run enlarged it.
+    """
     atom, settings = data["atom"], data["settings"]
     try:
         system = System.from_input(atom["Z"], atom["charge"], atom.get("configuration"))
         grid = GridSettings(**settings["grid"])
+        if r_max is not None and r_max != data["ground_state"]["r_max"]:
+            grid = replace(grid, r_max=r_max)  # as tdhf.properties.response_properties enlarges it
         scf = ScfSettings(**settings["scf"])
     except (KeyError, TypeError) as err:
         raise InputError(f"the result file has no usable atom or settings ({err}); rerun it with this tdhf") from None
@@ -183,8 +188,13 @@ def figures(data: Mapping[str, Any], multipole: int | None = None, frequency: fl
     state = ground_state_of(data)
     yield "densities", plots.radial_figure(densities(state), caption)
     rows = [row for row in data.get("polarizabilities") or () if not row["imaginary"] and not row.get("broadening")]
+
+    def response_state(L: int) -> GroundState:  # the box the run used for this multipole's responses
+        boxes = [row["r_max"] for row in rows if row["multipole"] == L and row.get("r_max")]
+        return ground_state_of(data, max(boxes)) if boxes and max(boxes) != state.r_max else state
+
     for L in sorted({row["multipole"] for row in rows}):
-        yield f"alpha_real_L{L}", plots.real_axis_figure(real_axis(state, L, data), caption)
+        yield f"alpha_real_L{L}", plots.real_axis_figure(real_axis(response_state(L), L, data), caption)
     if data.get("polarizability_tables"):
         yield "alpha_imaginary", plots.imaginary_axis_figure(data["polarizability_tables"], caption)
     if data.get("excitations") or data.get("strength_distribution"):
@@ -194,5 +204,5 @@ def figures(data: Mapping[str, Any], multipole: int | None = None, frequency: fl
     if response or multipole is not None or frequency is not None:
         L = multipole if multipole is not None else (response or {}).get("multipoles", [1])[0]
         omega = frequency if frequency is not None else next((row["frequency"] for row in rows), 0.0)
-        yield f"first_order_L{L}", plots.radial_figure(first_order_functions(state, L, omega, _tolerances(data)),
-                                                       caption)
+        functions = first_order_functions(response_state(L), L, omega, _tolerances(data))
+        yield f"first_order_L{L}", plots.radial_figure(functions, caption)
