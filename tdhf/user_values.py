@@ -1,6 +1,7 @@
 """A user's own numbers (e.g. from a Gaussian-basis code) read from CSV, checked row by row.
 
-The file has a header naming its columns, in any order; unknown columns are ignored.  The columns
+The file has a header naming its columns, in any order; unknown columns are ignored, and so are
+blank lines and lines whose first cell starts with ``#`` (comments).  The columns
 are those of the long table (:mod:`tdhf.report.tables`), so a table ``tdhf series --table`` wrote
 is valid input:
 
@@ -238,23 +239,26 @@ def read_user_values(path: str | Path) -> tuple[UserValue, ...]:
         raise InputError(f"{path}: cannot read the file: {err.strerror or err}") from None
     except UnicodeDecodeError as err:
         raise InputError(f"{path}: not a UTF-8 text file (byte {err.start}); give a CSV file") from None
-    reader = csv.DictReader(text.splitlines())
-    header = [name.strip() for name in reader.fieldnames or []]
-    if not header:
-        raise InputError(f"{path}:1: empty file; the first line must name the columns, at least {', '.join(REQUIRED_COLUMNS)}")
-    reader.fieldnames = header
-    for column in REQUIRED_COLUMNS:
-        if column not in header:
-            raise InputError(f"{path}:1: missing column {column!r}; the header must name {', '.join(REQUIRED_COLUMNS)}"
-                             f" (found: {', '.join(header)})")
+    reader = csv.reader(text.splitlines())
+    header: list[str] = []
     rows = []
-    for record in reader:
+    for cells in reader:
         line = reader.line_num
-        if not any((value or "").strip() for value in record.values() if isinstance(value, str)):
-            continue  # blank line
-        if None in record:
-            raise InputError(f"{path}:{line}: more cells than the header has columns")
-        rows.append(_user_value(_Row(path, line, record), "label" in header))
+        if not any(cell.strip() for cell in cells) or cells[0].lstrip().startswith("#"):
+            continue  # blank lines and comment lines
+        if not header:
+            header = [cell.strip() for cell in cells]
+            for column in REQUIRED_COLUMNS:
+                if column not in header:
+                    raise InputError(f"{path}:{line}: missing column {column!r}; the header must name"
+                                     f" {', '.join(REQUIRED_COLUMNS)} (found: {', '.join(header)})")
+            continue
+        if len(cells) > len(header):
+            raise InputError(f"{path}:{line}: {len(cells)} cells but the header names {len(header)} columns")
+        rows.append(_user_value(_Row(path, line, dict(zip(header, cells))), "label" in header))
+    if not header:
+        raise InputError(f"{path}:1: empty file; the first line must name the columns, at least"
+                         f" {', '.join(REQUIRED_COLUMNS)}")
     if not rows:
         raise InputError(f"{path}: no rows below the header; nothing to compare")
     return tuple(rows)
