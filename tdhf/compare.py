@@ -88,8 +88,19 @@ class ComparisonRow:
 
 @dataclass(frozen=True)
 class LabelSummary:
-    """How close one label's numbers are: ``count`` rows compared, the largest |relative
-    deviation| and the rms relative deviation (None without rows); ``rank`` 1 is the closest."""
+    """How close one label's numbers are, ranked by the rms relative deviation.
+
+    Attributes
+    ----------
+    label : str
+        The user's label (e.g. a basis set).
+    count : int
+        Rows compared (rows without a reference are not counted).
+    max_relative_deviation, rms_relative_deviation : float or None
+        Largest |relative deviation| and its root mean square; None without rows.
+    rank : int
+        1 is the closest to the numerical limit.
+    """
 
     label: str
     count: int
@@ -100,8 +111,21 @@ class LabelSummary:
 
 @dataclass(frozen=True)
 class SystemReference:
-    """The reference run of one system: ``status`` ("ok", "not converged", "rejected", "input
-    error"), its message, whether it was certified, its notes and its numbers (not in JSON)."""
+    """The reference run of one system (its numbers are not written to JSON).
+
+    Attributes
+    ----------
+    system : str
+        The system's name.
+    status : str
+        "ok", "not converged", "rejected" (some frequencies refused) or "input error".
+    message : str
+        Why, when the status is not "ok".
+    certified : bool
+        The references carry certified uncertainties.
+    warnings : tuple of str
+        The run's notes.
+    """
 
     system: str
     status: str
@@ -113,7 +137,21 @@ class SystemReference:
 
 @dataclass(frozen=True)
 class Comparison:
-    """The result of ``tdhf compare`` (field names are the JSON keys)."""
+    """The result of ``tdhf compare`` (field names are the JSON keys).
+
+    Attributes
+    ----------
+    comparison : tuple of ComparisonRow
+        One per row of the user's file, in file order.
+    summary : tuple of LabelSummary
+        One per label, ranked.
+    systems : tuple of SystemReference
+        One per distinct system.
+    program : ProgramInfo
+        The program and version that computed the references.
+    model : str
+        What the references are.
+    """
 
     comparison: tuple[ComparisonRow, ...]
     summary: tuple[LabelSummary, ...]

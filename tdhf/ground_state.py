@@ -37,6 +37,19 @@ class OrbitalResult:
     """One occupied subshell: energy and radial moments (atomic units).
 
     ``mean_r`` etc. are :math:`\\langle r^k \\rangle = \\int P(r)^2 r^k dr` per electron.
+
+    Attributes
+    ----------
+    label : str
+        Subshell, e.g. "2p".
+    n, l : int
+        Principal and orbital angular momentum quantum numbers.
+    occupation : int
+        Electrons in the subshell, 2(2l+1).
+    energy : float
+        Orbital energy epsilon, hartree (-epsilon_HOMO is the Koopmans ionization energy).
+    mean_inverse_r_squared, mean_inverse_r, mean_r, mean_r_squared : float
+        <r^-2>, <r^-1>, <r>, <r^2> per electron, bohr^k.
     """
 
     label: str

@@ -33,7 +33,41 @@ __all__ = ["Quantity", "quantities", "key_of", "multipole_unit", "property_unit"
 
 @dataclass(frozen=True)
 class Quantity:
-    """One reported number with everything that identifies it (see the module docstring)."""
+    """One reported number with everything that identifies it (see the module docstring).
+
+    Attributes
+    ----------
+    system : str
+        The system, e.g. "Ne"; the first system of a pair property.
+    property : str
+        What the number is (module docstring).
+    value : float
+        The number, in ``unit``.
+    unit : str
+        Its atomic unit in words: "hartree", "bohr^3", "hartree bohr^6", "1" (dimensionless).
+    path : str
+        Key path of the number in the JSON result, e.g. "polarizabilities[0].coupled".
+    partner : str or None
+        The second system of C6, C8, C10.
+    multipole : int or None
+        L of a response property.
+    frequency : float or None
+        omega (or nu if ``imaginary``), hartree.
+    imaginary : bool or None
+        True for omega = i nu.
+    level : str or None
+        "coupled" (TDHF) or "uncoupled".
+    k : int or None
+        The power of a sum rule S(k).
+    orbital : str or None
+        The subshell of an orbital energy.
+    index : int or None
+        The line of an excitation (1 = lowest listed of its multipole).
+    uncertainty : float or None
+        Certified absolute uncertainty (same unit); None if the run was not certified.
+    converged : bool
+        False if a solve behind the number did not converge.
+    """
 
     system: str
     property: str

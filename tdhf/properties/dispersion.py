@@ -198,6 +198,7 @@ class ImaginaryFrequencyTable:
     Attributes
     ----------
     system : str
+        The system's name, e.g. "Na+".
     frequencies : tuple of float, shape (m,)
         Quadrature nodes omega_k in hartree, ascending (m = n + n//2).
     weights : tuple of float, shape (m,)
