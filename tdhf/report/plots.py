@@ -53,14 +53,15 @@ def _caption(figure, text: str) -> None:
     figure.tight_layout(rect=(0, 0.08, 1, 1))
 
 
-def figure_bytes(figure, format: str) -> bytes:
-    """The figure rendered as ``format`` ("png" or "svg"); the figure is closed afterwards."""
+def figure_bytes(figure, format: str, close: bool = True) -> bytes:
+    """The figure rendered as ``format`` ("png" or "svg"); closed afterwards unless ``close`` is False."""
     pyplot = require_matplotlib()
     buffer = io.BytesIO()
     try:
         figure.savefig(buffer, format=format, dpi=150)
     finally:
-        pyplot.close(figure)
+        if close:
+            pyplot.close(figure)
     return buffer.getvalue()
 
 
