@@ -22,36 +22,45 @@ Decks and runs
 Errors
     InputError (exit code 2 in the CLI) and ConvergenceError (exit code 3), see :mod:`tdhf.errors`.
 
+The names are imported on first use (``import tdhf.cli`` must not load numpy, scipy and rich,
+so that ``tdhf --help`` starts at once).
+
 Atomic units throughout; the polarizability normalization is
 alpha_L = 2 sum_n |<0| sum_i r_i^L P_L(cos theta_i) |n>|^2 / (E_n - E_0).
 """
 
-from tdhf.deck import load_deck, parse_deck
-from tdhf.certify import certify
-from tdhf.driver import run_deck
-from tdhf.errors import ConvergenceError, InputError
-from tdhf.ground_state import GroundState, OrbitalResult, solve_ground_state
-from tdhf.properties.response_properties import compute_response
-from tdhf.properties.spectrum import lowest_excitations
-from tdhf.radial.mesh import GridSettings
-from tdhf.response.solver import ResponseSolver
-from tdhf.scf import ScfSettings
-from tdhf.system import System
+import importlib
+from typing import Any
 
-__all__ = [
-    "System",
-    "GridSettings",
-    "ScfSettings",
-    "solve_ground_state",
-    "GroundState",
-    "OrbitalResult",
-    "ResponseSolver",
-    "compute_response",
-    "lowest_excitations",
-    "load_deck",
-    "parse_deck",
-    "run_deck",
-    "certify",
-    "InputError",
-    "ConvergenceError",
-]
+#: Public name -> module that defines it.
+_SOURCES = {
+    "System": "tdhf.system",
+    "GridSettings": "tdhf.radial.mesh",
+    "ScfSettings": "tdhf.scf",
+    "solve_ground_state": "tdhf.ground_state",
+    "GroundState": "tdhf.ground_state",
+    "OrbitalResult": "tdhf.ground_state",
+    "ResponseSolver": "tdhf.response.solver",
+    "compute_response": "tdhf.properties.response_properties",
+    "lowest_excitations": "tdhf.properties.spectrum",
+    "load_deck": "tdhf.deck",
+    "parse_deck": "tdhf.deck",
+    "run_deck": "tdhf.driver",
+    "certify": "tdhf.certify",
+    "InputError": "tdhf.errors",
+    "ConvergenceError": "tdhf.errors",
+}
+
+__all__ = list(_SOURCES)
+
+
+def __getattr__(name: str) -> Any:
+    if name not in _SOURCES:
+        raise AttributeError(f"module 'tdhf' has no attribute {name!r}")
+    value = getattr(importlib.import_module(_SOURCES[name]), name)
+    globals()[name] = value  # later look-ups skip this function
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(__all__))

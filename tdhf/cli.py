@@ -1,58 +1,103 @@
 """Command line: ``tdhf run DECK.toml``, ``tdhf atom ELEMENT``, ``tdhf pairs A B ...`` and
-``tdhf series DECK... --out DIR`` (argument parsing only).
+``tdhf series DECK... --out DIR`` (argument parsing and the edges: files, terminal, exit code).
 
 Results (tables) go to stdout; warnings, progress and the log go to stderr.  ``--quiet`` prints
 nothing but errors; ``--verbose`` adds the effective options, progress and one line per SCF
-iteration (logger ``tdhf.scf`` at DEBUG).
+iteration (logger ``tdhf.scf`` at DEBUG).  Every output path is checked before any work
+(:mod:`tdhf.report.files`).  The numerical package, rich and scipy are imported only when a
+command runs, so ``tdhf --help`` starts fast.
 
 Exit codes
 ----------
-0  success
-1  unexpected internal error (a bug; ``--verbose`` shows the traceback)
-2  input error: bad deck, bad argument, impossible system (one line ``tdhf: error: ...``)
-3  a solver did not converge; the JSON file, if asked for, is still written
+0    success
+1    internal error: a bug (``--verbose`` shows the traceback); no other path gives 1
+2    input error: bad deck or argument, impossible system, an output path that cannot be written
+     (all checked before any work), or a real frequency refused (the other results are written)
+3    a solver did not converge; the results are written and flagged
+4    output failure: a result file could not be written after the computation; the message names
+     it, the other files are written and the results are printed on stdout
+130  interrupted (Ctrl-C or SIGTERM); finished result files are complete
+When several apply (a series, or one run with several problems) the most serious wins, in the
+order 130, 1, 4, 3, 2.
 """
 
 from __future__ import annotations
 
 import argparse
-import dataclasses
 import contextlib
+import errno
 import logging
+import os
+import signal
 import sys
 import traceback
 import warnings
 from pathlib import Path
-from typing import Any, Iterator, Sequence, TextIO
+from typing import TYPE_CHECKING, Any, Iterable, Iterator, Sequence, TextIO
 
-from rich.console import Console
+from tdhf.errors import ConvergenceError, InputError, OutputError
 
-from tdhf.deck import Deck, build_deck, load_deck, parse_system_name
-from tdhf.certify import certify
-from tdhf.driver import program_info, run_deck
-from tdhf.report.json_result import result_to_json
-from tdhf.errors import ConvergenceError, InputError
-from tdhf.properties.dispersion import write_polarizability_csv
-from tdhf.report.serialize import write_json
-from tdhf.report.terminal import SERIES_COLUMNS, print_report, rows_table
-from tdhf.series import run_series
+if TYPE_CHECKING:
+    from rich.console import Console
 
-__all__ = ["main", "build_parser", "EXIT_OK", "EXIT_BUG", "EXIT_INPUT", "EXIT_CONVERGENCE"]
+    from tdhf.deck import Deck
+    from tdhf.report.files import OutputTarget
 
-EXIT_OK, EXIT_BUG, EXIT_INPUT, EXIT_CONVERGENCE, EXIT_INTERRUPTED = 0, 1, 2, 3, 130
+__all__ = ["main", "build_parser", "worst_exit_code", "EXIT_OK", "EXIT_BUG", "EXIT_INPUT", "EXIT_CONVERGENCE",
+           "EXIT_OUTPUT", "EXIT_INTERRUPTED"]
+
+EXIT_OK, EXIT_BUG, EXIT_INPUT, EXIT_CONVERGENCE, EXIT_OUTPUT, EXIT_INTERRUPTED = 0, 1, 2, 3, 4, 130
+#: Most serious first (module docstring).
+_SEVERITY = (EXIT_INTERRUPTED, EXIT_BUG, EXIT_OUTPUT, EXIT_CONVERGENCE, EXIT_INPUT)
+#: Exit code of each tdhf.series status.
+_SERIES_EXIT = {"ok": EXIT_OK, "skipped": EXIT_OK, "input error": EXIT_INPUT, "rejected": EXIT_INPUT,
+                "not converged": EXIT_CONVERGENCE, "output error": EXIT_OUTPUT, "internal error": EXIT_BUG,
+                "interrupted": EXIT_INTERRUPTED}
 #: Width of the tables when stdout is not a terminal (a file or a pipe).
 FILE_WIDTH = 120
 
 logger = logging.getLogger("tdhf.cli")
 
 
+def worst_exit_code(codes: Iterable[int]) -> int:
+    """The most serious of ``codes`` (order 130, 1, 4, 3, 2), or 0."""
+    codes = set(codes)
+    return next((code for code in _SEVERITY if code in codes), EXIT_OK)
+
+
+class _UsageError(Exception):
+    """A command line argparse cannot read; the message is one line."""
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse with one-line errors (``tdhf: error: ...; usage: ...``) instead of exiting."""
+
+    def error(self, message: str) -> None:  # type: ignore[override]
+        usage = " ".join(self.format_usage().split())
+        raise _UsageError(f"{message}; {usage} (see {self.prog} --help)")
+
+
+class _Version(argparse.Action):
+    """``--version``: the installed version, looked up only when asked for."""
+
+    def __init__(self, option_strings: Sequence[str], dest: str = argparse.SUPPRESS, **kwargs: Any) -> None:
+        super().__init__(option_strings, dest, nargs=0, default=argparse.SUPPRESS,
+                         help="show the program's version and exit")
+
+    def __call__(self, parser, namespace, values, option_string=None) -> None:
+        from tdhf.driver import program_info
+
+        print(f"tdhf {program_info().version}")
+        parser.exit()
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of ``tdhf``."""
-    parser = argparse.ArgumentParser(
+    parser = _Parser(
         prog="tdhf",
         description="Hartree-Fock ground states and TDHF linear response of closed-shell atoms.",
     )
-    parser.add_argument("--version", action="version", version=f"tdhf {program_info().version}")
+    parser.add_argument("--version", action=_Version)
     common = argparse.ArgumentParser(add_help=False)
     common.add_argument("--json", metavar="OUT.json", type=Path, help="also write the results to this JSON file")
     common.add_argument("--certify", action="store_true",
@@ -92,7 +137,8 @@ def build_parser() -> argparse.ArgumentParser:
                                  description="Run a series of decks; failures stay with their deck.")
     series.add_argument("decks", metavar="DECK.toml", type=Path, nargs="+")
     series.add_argument("--out", metavar="DIR", type=Path, required=True, help="directory for the JSON results")
-    series.add_argument("--resume", action="store_true", help="skip decks whose result file already exists")
+    series.add_argument("--resume", action="store_true",
+                        help="keep result files that are complete and current (same deck, same version)")
     series_talk = series.add_mutually_exclusive_group()
     series_talk.add_argument("-v", "--verbose", action="store_true", help="show progress on stderr")
     series_talk.add_argument("-q", "--quiet", action="store_true", help="print nothing but errors")
@@ -102,8 +148,10 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def _deck_from_arguments(args: argparse.Namespace) -> Deck:
-    """The deck of ``tdhf run``, or the deck ``tdhf atom`` options describe (same validation)."""
+def _deck_from_arguments(args: argparse.Namespace) -> "Deck":
+    """The deck of ``tdhf run``, or the deck ``tdhf atom``/``pairs`` options describe (same validation)."""
+    from tdhf.deck import build_deck, load_deck, parse_system_name
+
     if args.command == "run":
         return load_deck(args.deck)
     if args.command == "pairs":
@@ -131,22 +179,51 @@ def _deck_from_arguments(args: argparse.Namespace) -> Deck:
     return build_deck(data)
 
 
-def _check_output(path: Path | None) -> Path | None:
-    """Fail before computing if the JSON file could not be written."""
-    if path is None:
-        return None
-    if path.is_dir():
-        raise InputError(f"--json: {path} is a directory; give a file name")
-    if not path.parent.is_dir():
-        raise InputError(f"--json: the directory {path.parent} does not exist")
-    return path
+def _check_outputs(args: argparse.Namespace, deck: "Deck") -> dict[str, "OutputTarget"]:
+    """Every output of the command, checked before any work: option -> where it is written."""
+    from tdhf.report.files import check_output_file
+
+    targets = {}
+    if args.json is not None:
+        targets["--json"] = check_output_file(args.json, "--json")
+    csv_path = getattr(args, "csv", None)
+    if csv_path is not None:
+        if deck.dispersion is None:
+            raise InputError("--csv: there are no alpha(i w) tables without a [dispersion] table in the deck")
+        targets["--csv"] = check_output_file(csv_path, "--csv")
+    files = {option: target for option, target in targets.items() if target.atomic}
+    if len({target.target for target in files.values()}) < len(files):
+        raise InputError(f"--csv {args.csv}: the same file as --json {args.json}; give two names")
+    if args.command == "run":
+        deck_file = Path(os.path.realpath(args.deck))
+        for option, target in files.items():
+            if target.target == deck_file:
+                raise InputError(f"{option} {target.path}: is the deck file itself; give another name")
+    return targets
+
+
+def _check_certification_grid(deck: "Deck") -> None:
+    """``--certify`` reruns on a finer grid (and a larger box): check now that the finer grid fits the limits."""
+    from tdhf.ground_state import starting_box
+    from tdhf.radial.mesh import check_grid_size
+
+    system, grid = deck.atom.to_system(), deck.grid.refined()
+    try:
+        check_grid_size(grid, system.Z, starting_box(system, grid))
+    except InputError as err:
+        raise InputError(f"--certify: the finer grid it needs is too large: {err}") from None
+
+
+def _one_line(text: str) -> str:
+    """Every line break (including the Unicode ones str.splitlines knows) becomes a space."""
+    return " ".join(text.strip().splitlines())
 
 
 class _OneLineFormatter(logging.Formatter):
     """``tdhf: error: ...``, ``tdhf: warning: ...``, ``tdhf: ...``; newlines become spaces."""
 
     def format(self, record: logging.LogRecord) -> str:
-        text = " ".join(record.getMessage().strip().splitlines())
+        text = _one_line(record.getMessage())
         if record.levelno >= logging.ERROR:
             return f"tdhf: error: {text}"
         if record.levelno >= logging.WARNING:
@@ -157,7 +234,7 @@ class _OneLineFormatter(logging.Formatter):
 class _ConsoleHandler(logging.Handler):
     """Log records printed on a rich Console: they stay above a live status line, never wrap."""
 
-    def __init__(self, console: Console) -> None:
+    def __init__(self, console: "Console") -> None:
         super().__init__()
         self.console = console
 
@@ -169,8 +246,11 @@ class _ConsoleHandler(logging.Handler):
 
 
 @contextlib.contextmanager
-def _stderr_logging(console: Console, level: int) -> Iterator[None]:
-    """Send the ``tdhf`` loggers and Python warnings to ``console`` (stderr), one line each."""
+def _stderr_logging(console: "Console", level: int) -> Iterator[set[str]]:
+    """Send the ``tdhf`` loggers and Python warnings to ``console`` (stderr), one line each.
+
+    Yields the set of warning texts shown, so notes stored in a result are not shown twice.
+    """
     package = logging.getLogger("tdhf")
     handler = _ConsoleHandler(console)
     handler.setFormatter(_OneLineFormatter())
@@ -178,15 +258,17 @@ def _stderr_logging(console: Console, level: int) -> Iterator[None]:
     package.addHandler(handler)
     package.setLevel(level)
     package.propagate = False
+    shown: set[str] = set()
 
     def show_warning(message, category, filename, lineno, file=None, line=None) -> None:
+        shown.add(str(message))
         logger.warning("%s", message)
 
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("default")
             warnings.showwarning = show_warning
-            yield
+            yield shown
     finally:
         package.removeHandler(handler)
         package.setLevel(saved[0])
@@ -194,7 +276,25 @@ def _stderr_logging(console: Console, level: int) -> Iterator[None]:
 
 
 @contextlib.contextmanager
-def _progress(console: Console, live: bool) -> Iterator[Any]:
+def _terminate_as_interrupt() -> Iterator[None]:
+    """SIGTERM raises KeyboardInterrupt, like Ctrl-C: files being written are cleaned up."""
+
+    def interrupt(signum: int, frame: Any) -> None:
+        raise KeyboardInterrupt
+
+    try:
+        previous = signal.signal(signal.SIGTERM, interrupt)
+    except ValueError:  # not the main thread (an embedding program): leave signals alone
+        previous = None
+    try:
+        yield
+    finally:
+        if previous is not None:
+            signal.signal(signal.SIGTERM, previous)
+
+
+@contextlib.contextmanager
+def _progress(console: "Console", live: bool) -> Iterator[Any]:
     """A progress callback: a transient status line on a terminal, else INFO log lines."""
     if not live:
         yield lambda stage: logger.info("%s ...", stage)
@@ -203,23 +303,45 @@ def _progress(console: Console, live: bool) -> Iterator[Any]:
         yield lambda stage: status.update(f"{stage} ...")
 
 
+def _silence(stream: TextIO) -> None:
+    """Point a broken stdout at the null device, so exiting does not fail on it again."""
+    with contextlib.suppress(Exception):
+        descriptor = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(descriptor, stream.fileno())
+        os.close(descriptor)
+
+
 def main(argv: Sequence[str] | None = None, stdout: TextIO | None = None, stderr: TextIO | None = None) -> int:
     """Run the command line and return the exit code (see the module docstring)."""
     stdout, stderr = stdout or sys.stdout, stderr or sys.stderr
-    args = build_parser().parse_args(argv)
+    try:
+        with contextlib.redirect_stdout(stdout):
+            args = build_parser().parse_args(argv)
+    except _UsageError as err:
+        print("tdhf: error:", _one_line(str(err)), file=stderr)
+        return EXIT_INPUT
+    except SystemExit as done:  # --help, --version
+        return done.code if isinstance(done.code, int) else EXIT_OK
+    from rich.console import Console
+
     level = logging.ERROR if args.quiet else logging.DEBUG if args.verbose else logging.WARNING
     err_console = Console(file=stderr)
-    with _stderr_logging(err_console, level):
+    with _stderr_logging(err_console, level) as shown, _terminate_as_interrupt():
         try:
-            return _execute(args, stdout, err_console)
+            return _execute(args, stdout, err_console, shown)
         except InputError as err:
             logger.error("%s", err)
             return EXIT_INPUT
         except ConvergenceError as err:
             logger.error("%s", err)
             return EXIT_CONVERGENCE
+        except OutputError as err:
+            logger.error("%s", err)
+            if stdout is sys.stdout:
+                _silence(stdout)
+            return EXIT_OUTPUT
         except KeyboardInterrupt:
-            logger.error("interrupted")
+            logger.error("interrupted; finished result files are complete, nothing else was written")
             return EXIT_INTERRUPTED
         except Exception as err:  # a bug: say so in one line, the traceback only when asked
             logger.error("internal error %s: %s%s", type(err).__name__, err,
@@ -229,51 +351,102 @@ def main(argv: Sequence[str] | None = None, stdout: TextIO | None = None, stderr
             return EXIT_BUG
 
 
-def _stdout_console(stdout: TextIO) -> Console:
+def _stdout_console(stdout: TextIO) -> "Console":
     """The results console: the terminal's width, or a fixed width for files and pipes."""
-    console = Console(file=stdout)
-    return console if console.is_terminal else Console(file=stdout, width=FILE_WIDTH)
+    from rich.console import Console
+
+    class ResultsConsole(Console):
+        def on_broken_pipe(self) -> None:  # rich would exit with 1; it is an output failure
+            raise BrokenPipeError(errno.EPIPE, os.strerror(errno.EPIPE))
+
+    console = ResultsConsole(file=stdout)
+    return console if console.is_terminal else ResultsConsole(file=stdout, width=FILE_WIDTH)
 
 
-def _execute_series(args: argparse.Namespace, stdout: TextIO, err_console: Console) -> int:
+def _to_stdout(stdout: TextIO | None, draw: Any) -> None:
+    """``draw(console)`` on stdout; a closed or full stdout is an output failure (exit 4), not a bug."""
+    if stdout is None:  # the process was started with stdout closed
+        raise OutputError("stdout: it is closed; cannot print the results (use -q, or --json)")
+    try:
+        draw(_stdout_console(stdout))
+        stdout.flush()
+    except OSError as err:
+        raise OutputError(f"stdout: cannot print the results: {err.strerror or err}") from None
+
+
+def _execute_series(args: argparse.Namespace, stdout: TextIO, err_console: "Console") -> int:
+    from tdhf.report.terminal import SERIES_COLUMNS, print_report, rows_table
+    from tdhf.series import run_series
+
     with _progress(err_console, live=err_console.is_terminal and not (args.quiet or args.verbose)) as progress:
         entries = run_series(args.decks, args.out, resume=args.resume, progress=progress)
     if not args.quiet:
-        _stdout_console(stdout).print(rows_table("Series", entries, SERIES_COLUMNS))
+        _to_stdout(stdout, lambda console: console.print(rows_table("Series", entries, SERIES_COLUMNS)))
     for entry in entries:
-        if entry.status in ("input error", "not converged", "rejected"):
+        for note in entry.warnings:
+            logger.warning("%s: %s", entry.deck, note)
+        if _SERIES_EXIT[entry.status] != EXIT_OK:
             logger.error("%s: %s", entry.deck, entry.message)
-    statuses = {entry.status for entry in entries}
-    if statuses & {"input error", "rejected"}:
-        return EXIT_INPUT
-    return EXIT_CONVERGENCE if "not converged" in statuses else EXIT_OK
+        if entry.status == "output error" and entry.result is not None:
+            _to_stdout(stdout, lambda console: print_report(console, entry.result))
+    return worst_exit_code(_SERIES_EXIT[entry.status] for entry in entries)
 
 
-def _execute(args: argparse.Namespace, stdout: TextIO, err_console: Console) -> int:
+def _write_outputs(result: Any, targets: dict[str, "OutputTarget"]) -> list[str]:
+    """Write every requested file; one that fails is logged and named, the others still written."""
+    from tdhf.report.json_result import result_to_json
+    from tdhf.report.serialize import write_json, write_polarizability_csv
+
+    failed = []
+    for option, target in targets.items():
+        try:
+            if option == "--json":
+                write_json(target, result_to_json(result))
+            else:
+                write_polarizability_csv(target, result.polarizability_tables)
+        except OutputError as err:
+            logger.error("%s; the results are printed on stdout instead", err)
+            failed.append(option)
+    return failed
+
+
+def _execute(args: argparse.Namespace, stdout: TextIO, err_console: "Console", shown: set[str]) -> int:
     if args.command == "series":
         return _execute_series(args, stdout, err_console)
     deck = _deck_from_arguments(args)
-    json_path = _check_output(args.json)
+    targets = _check_outputs(args, deck)
+    if args.certify:
+        _check_certification_grid(deck)
+    import dataclasses
+
+    from tdhf.certify import certify
+    from tdhf.driver import run_deck
+    from tdhf.report.terminal import print_report
+
+    codes = []
     with _progress(err_console, live=err_console.is_terminal and not (args.quiet or args.verbose)) as progress:
         result = run_deck(deck, progress=progress)
         if args.certify:
-            result = dataclasses.replace(result, certification=certify(result, deck, progress=progress))
-    if json_path is not None:
-        write_json(json_path, result_to_json(result))
-    csv_path = getattr(args, "csv", None)
-    if csv_path is not None:
-        if not result.polarizability_tables:
-            raise InputError("--csv: there are no alpha(i w) tables without a [dispersion] table in the deck")
-        write_polarizability_csv(csv_path, result.polarizability_tables)
-    if not args.quiet:
-        print_report(_stdout_console(stdout), result)
+            try:
+                result = dataclasses.replace(result, certification=certify(result, deck, progress=progress))
+            except (InputError, ConvergenceError) as err:  # the results of the run itself are kept
+                logger.error("--certify: %s; the results are kept without certification", err)
+                codes.append(EXIT_INPUT if isinstance(err, InputError) else EXIT_CONVERGENCE)
+    for note in result.warnings:  # notes of the result that no library warning has shown yet
+        if note not in shown:
+            logger.warning("%s", note)
+    failed = _write_outputs(result, targets)
+    if not args.quiet or failed:
+        _to_stdout(stdout, lambda console: print_report(console, result))
+    json_written = "--json" in targets and "--json" not in failed
+    codes += [EXIT_OUTPUT] if failed else []
     if result.rejected:
-        saved = f"; the other results were written to {json_path}" if json_path is not None else ""
+        saved = f"; the other results were written to {args.json}" if json_written else ""
         logger.error("%s%s", "; ".join(result.rejected), saved)
-        return EXIT_INPUT
+        codes.append(EXIT_INPUT)
     problems = result.convergence_problems()
     if problems:
-        saved = f"; results written to {json_path}" if json_path is not None else ""
+        saved = f"; results written to {args.json}" if json_written else ""
         logger.error("%s%s", "; ".join(problems), saved)
-        return EXIT_CONVERGENCE
-    return EXIT_OK
+        codes.append(EXIT_CONVERGENCE)
+    return worst_exit_code(codes)

@@ -37,6 +37,13 @@ A deck has one table per part of the calculation; only ``[atom]`` is required::
     # systems = ["Ne", "Ar"]       # instead: every pair among [atom] and these (a series table)
     quadrature_points = 24         # points of the imaginary-frequency quadrature, 8..96
 
+A deck is data only: it names no files and no programs, so reading it never reaches outside the
+deck file itself; results go only where the command line says (``--json``, ``--csv``, ``--out``).
+A deck is at most MAX_DECK_BYTES long (a stream that does not end is refused), lists of
+frequencies and systems are bounded (MAX_FREQUENCIES, MAX_SYSTEMS), frequencies lie in
+[0, MAX_FREQUENCY] hartree, and the radial grid the settings ask for is estimated and capped
+(:func:`tdhf.radial.mesh.check_grid_size`) before anything is allocated.
+
 Validation is strict: an unknown table or key, a value of the wrong type (a boolean is not an
 integer; an integer is accepted where a float is expected) or an impossible value raises an
 :class:`~tdhf.errors.InputError` whose one-line message starts with the full key path, e.g.
@@ -55,6 +62,7 @@ from __future__ import annotations
 
 import dataclasses
 import difflib
+import hashlib
 import json
 import math
 import re
@@ -66,12 +74,12 @@ from typing import Any, Mapping
 from tdhf.elements import atomic_number, symbol
 from tdhf.errors import DeckError, FrequencyError, InputError, UnknownElementError
 from tdhf.accuracy import ACCURACY_PRESETS
-from tdhf.radial.mesh import GridSettings
+from tdhf.ground_state import starting_box
+from tdhf.radial.mesh import GridSettings, check_grid_size
 from tdhf.response.solver import ResponseTolerances
 from tdhf.scf import ScfSettings
 from tdhf.system import System
 from tdhf.properties.dispersion import DEFAULT_QUADRATURE_POINTS, QUADRATURE_RANGE
-from tdhf.properties.response_properties import MAX_FREQUENCY
 
 __all__ = [
     "SCHEMA_VERSION",
@@ -84,6 +92,11 @@ __all__ = [
     "build_deck",
     "format_deck",
     "parse_system_name",
+    "deck_digest",
+    "MAX_DECK_BYTES",
+    "MAX_FREQUENCY",
+    "MAX_FREQUENCIES",
+    "MAX_SYSTEMS",
 ]
 
 #: The only deck format version so far.
@@ -92,6 +105,15 @@ SCHEMA_VERSION = 1
 MULTIPOLE_RANGE = (1, 3)
 #: Most lines listed per multipole.
 MAX_EXCITATIONS = 100
+#: Longest deck file, bytes; the bundled decks are < 1 kB.
+MAX_DECK_BYTES = 1 << 20
+#: Largest frequency, hartree (1e15 is ~3e16 eV, far beyond any atomic scale; alpha(i nu) is
+#: then S(0)/nu^2 to 1e-28 relative and nu^2 stays far from overflow in every product).
+MAX_FREQUENCY = 1e15
+#: Most entries of one frequency list (each costs one response solve per multipole).
+MAX_FREQUENCIES = 1000
+#: Most dispersion partners or systems (each costs a ground state and ~100 response solves).
+MAX_SYSTEMS = 120
 
 
 @dataclass(frozen=True)
@@ -167,13 +189,18 @@ def load_deck(path: str | Path) -> Deck:
     """
     path = Path(path)
     try:
-        text = path.read_text(encoding="utf-8")
+        with path.open("rb") as stream:
+            data = stream.read(MAX_DECK_BYTES + 1)  # bounded: the path may be a device or a pipe
     except FileNotFoundError:
         raise DeckError(f"{path}: no such deck file") from None
-    except UnicodeDecodeError as err:
-        raise DeckError(f"{path}: not a UTF-8 text file (byte {err.start}); decks are TOML text") from None
     except OSError as err:
         raise DeckError(f"{path}: cannot read the deck: {err.strerror or err}") from None
+    if len(data) > MAX_DECK_BYTES:
+        raise DeckError(f"{path}: longer than {MAX_DECK_BYTES} bytes; a deck is a short TOML text file")
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError as err:
+        raise DeckError(f"{path}: not a UTF-8 text file (byte {err.start}); decks are TOML text") from None
     return parse_deck(text, source=str(path))
 
 
@@ -186,8 +213,12 @@ def parse_deck(text: str, source: str = "<string>") -> Deck:
     >>> parse_deck('[atom]\\nelement = 10\\n').atom.element
     10
     """
+    if len(text) > MAX_DECK_BYTES:
+        raise DeckError(f"{source}: longer than {MAX_DECK_BYTES} characters; a deck is a short TOML text")
     try:
         data = tomllib.loads(text)
+    except RecursionError:
+        raise DeckError(f"{source}: arrays or tables nested too deeply; a deck nests at most two levels") from None
     except tomllib.TOMLDecodeError as err:
         message = str(err).splitlines()[0] if str(err) else "syntax error"
         match = _TOML_POSITION.search(message)
@@ -217,6 +248,7 @@ def build_deck(data: Mapping[str, Any]) -> Deck:
     scf = _scf(_table("scf", data.get("scf", {})), preset.scf)
     response = _response(_table("response", data["response"])) if "response" in data else None
     dispersion = _dispersion(_table("dispersion", data["dispersion"])) if "dispersion" in data else None
+    _check_grids(atom, grid, dispersion)
     return Deck(atom=atom, grid=grid, scf=scf, response=response, dispersion=dispersion, schema=schema,
                 accuracy=accuracy, tolerances=preset.tolerances)
 
@@ -234,6 +266,19 @@ def _accuracy(data: Mapping[str, Any], grid_table: Mapping[str, Any]) -> str:
     if len(set(names.values())) > 1:
         raise DeckError("grid.preset: contradicts accuracy; give only the top-level accuracy key")
     return next(iter(names.values()), "default")
+
+
+def _check_grids(atom: AtomSection, grid: GridSettings, dispersion: DispersionSection | None) -> None:
+    """Refuse grid settings whose grid would be too large for any system of the deck, now.
+
+    Checked in the starting box (:func:`tdhf.ground_state.starting_box`); a box that the ground
+    state enlarges later is checked again before it is built.
+    """
+    systems = [atom.to_system()]
+    for name in (dispersion.partners or dispersion.systems) if dispersion else ():
+        systems.append(System.from_input(*parse_system_name(name)))
+    for system in systems:
+        check_grid_size(grid, system.Z, starting_box(system, grid))
 
 
 def _atom(table: Mapping[str, Any]) -> AtomSection:
@@ -311,13 +356,13 @@ def _response(table: Mapping[str, Any]) -> ResponseSection:
 
 def _frequencies(path: str, value: Any) -> tuple[float, ...]:
     numbers = []
-    for i, item in enumerate(_array(path, value, allow_empty=True)):
+    for i, item in enumerate(_array(path, value, allow_empty=True, longest=MAX_FREQUENCIES)):
         number = _number(f"{path}[{i}]", item)
         if number < 0.0:
             raise FrequencyError(f"{path}[{i}]: {number!r} is negative; frequencies are in hartree and must be >= 0")
         if number > MAX_FREQUENCY:
-            raise FrequencyError(f"{path}[{i}]: {number:g} hartree is above {MAX_FREQUENCY:g}, the largest accepted;"
-                                 " alpha is N/nu^2 to every digit long before")
+            raise FrequencyError(f"{path}[{i}]: {number!r} hartree is above the largest allowed frequency,"
+                                 f" {MAX_FREQUENCY:g} hartree; give frequencies in hartree")
         numbers.append(number)
     return _unique(path, numbers)
 
@@ -333,7 +378,7 @@ def _dispersion(table: Mapping[str, Any]) -> DispersionSection:
         )
     key = given[0]
     names = []
-    for i, item in enumerate(_array(f"dispersion.{key}", table[key], allow_empty=False)):
+    for i, item in enumerate(_array(f"dispersion.{key}", table[key], allow_empty=False, longest=MAX_SYSTEMS)):
         path = f"dispersion.{key}[{i}]"
         name = _string(path, item)
         element, charge = parse_system_name(name, path)
@@ -416,6 +461,19 @@ def format_deck(deck: Deck) -> str:
     return "\n".join(lines) + "\n"
 
 
+def deck_digest(deck: Deck) -> str:
+    """SHA-256 (hex) of the normalized deck: :func:`format_deck` text with the element as its symbol.
+
+    Two decks with the same digest ask for the same calculation; a result file stores it so that
+    ``tdhf series --resume`` can tell a result of the deck as it is now from one of an older edit.
+
+    >>> deck_digest(parse_deck('[atom]\\nelement = 10\\n')) == deck_digest(parse_deck('[atom]\\nelement = "ne"\\n'))
+    True
+    """
+    atom = dataclasses.replace(deck.atom, element=symbol(atomic_number(deck.atom.element)))
+    return hashlib.sha256(format_deck(dataclasses.replace(deck, atom=atom)).encode("utf-8")).hexdigest()
+
+
 def _toml_value(value: Any) -> str:
     if isinstance(value, bool):
         return "true" if value else "false"
@@ -438,7 +496,11 @@ def _field_names(cls: type) -> tuple[str, ...]:
     return tuple(f.name for f in dataclasses.fields(cls))
 
 
+_BARE_KEY = re.compile(r"[A-Za-z0-9_-]+")
+
+
 def _join(path: str, key: str) -> str:
+    key = key if _BARE_KEY.fullmatch(key) else json.dumps(key)  # as TOML writes it: one line, visible
     return f"{path}.{key}" if path else key
 
 
@@ -506,11 +568,13 @@ def _boolean(path: str, value: Any) -> bool:
     return value
 
 
-def _array(path: str, value: Any, allow_empty: bool) -> list[Any]:
+def _array(path: str, value: Any, allow_empty: bool, longest: int | None = None) -> list[Any]:
     if not isinstance(value, (list, tuple)):
         raise DeckError(f"{path}: expected an array such as [1, 2], got {_describe(value)}")
     if not value and not allow_empty:
         raise DeckError(f"{path}: empty array; give at least one entry")
+    if longest is not None and len(value) > longest:
+        raise DeckError(f"{path}: {len(value)} entries, more than the {longest} allowed; split the run")
     return list(value)
 
 

@@ -23,7 +23,7 @@ import warnings
 from dataclasses import dataclass, field
 from typing import Callable
 
-from tdhf.deck import Deck, DispersionSection, ResponseSection, parse_system_name
+from tdhf.deck import Deck, DispersionSection, ResponseSection, deck_digest, parse_system_name
 from tdhf.ground_state import GroundState, solve_ground_state
 from tdhf.properties.dispersion import (
     DispersionCoefficients,
@@ -96,7 +96,10 @@ def program_info() -> ProgramInfo:
 
 @dataclass(frozen=True)
 class RunSettings:
-    """Every effective option of a run (defaults filled in), stored with the results."""
+    """Every effective option of a run (defaults filled in), stored with the results.
+
+    ``deck_digest`` is :func:`tdhf.deck.deck_digest` of the deck (resume checks it).
+    """
 
     accuracy: str
     grid: GridSettings
@@ -105,6 +108,7 @@ class RunSettings:
     response: ResponseSection | None
     dispersion: DispersionSection | None
     schema: int
+    deck_digest: str = ""
 
 
 @dataclass(frozen=True)
@@ -237,7 +241,7 @@ def run_deck(deck: Deck, progress: Progress | None = None, map_tasks: TaskMap | 
     report = progress or (lambda stage: None)
     system = deck.atom.to_system()
     settings = RunSettings(deck.accuracy, deck.grid, deck.scf, deck.tolerances, deck.response, deck.dispersion,
-                           deck.schema)
+                           deck.schema, deck_digest(deck))
     for name in ("accuracy", "grid", "scf", "tolerances", "response", "dispersion"):
         logger.info("option %s: %s", name, getattr(settings, name))
     report(f"ground state of {system.name}")

@@ -27,7 +27,8 @@ from tdhf.errors import ConfigurationError, OpenShellError, UnknownElementError
 __all__ = [
     "SYMBOLS", "L_LETTERS", "Subshell", "atomic_number", "symbol", "neutral_configuration",
     "default_configuration", "parse_configuration", "format_configuration", "electron_count",
-    "require_closed_shell", "closed_shell_charges", "ion_name",
+    "require_closed_shell", "closed_shell_charges", "ion_name", "LOWEST_BOUND_CHARGE",
+    "closed_shell_atoms", "isoelectronic_sequence",
 ]
 
 SYMBOLS: tuple[str, ...] = tuple("""
@@ -271,11 +272,38 @@ def ion_name(Z: int, charge: int) -> str:
     return f"{name}{abs(charge) if abs(charge) > 1 else ''}{sign}"
 
 
+#: Most negative charge whose outermost orbital Hartree-Fock binds.  Measured for every Z <= 118
+#: with the default configurations: all 19 closed-shell anions of charge -1 have a bound
+#: outermost orbital (H- ... Ts-, epsilon from -0.008 to -0.18 hartree), none of the 19 closed-shell
+#: dianions (He2-, O2-, ..., Og2-) has one, so tdhf refuses them before any work.
+LOWEST_BOUND_CHARGE = -1
+
+
+def _closed(subshells: Iterable[Subshell]) -> bool:
+    return all(s.is_closed for s in subshells)
+
+
 def closed_shell_charges(Z: int) -> tuple[int, ...]:
-    """Charges in ``[-2, Z - 1]`` whose default configuration is closed, plus ``Z - 1``."""
+    """Charges in ``[LOWEST_BOUND_CHARGE, Z - 1]`` whose default configuration is closed, plus
+    ``Z - 1``: the charge states of element Z that tdhf can solve."""
     Z = _check_z(Z)
-    return tuple(q for q in range(-2, Z) if q == Z - 1
-                 or all(s.is_closed for s in default_configuration(Z, q)))
+    return tuple(q for q in range(LOWEST_BOUND_CHARGE, Z) if q == Z - 1 or _closed(default_configuration(Z, q)))
+
+
+def closed_shell_atoms() -> tuple[int, ...]:
+    """Atomic numbers whose neutral default configuration is closed (He, Be, Ne, ..., Og)."""
+    return tuple(z for z in range(1, _MAX_Z + 1) if _closed(neutral_configuration(z)))
+
+
+def isoelectronic_sequence(electrons: int, highest_charge: int) -> tuple[tuple[int, int], ...]:
+    """(Z, charge) of the closed-shell systems with ``electrons`` electrons, charge
+    LOWEST_BOUND_CHARGE .. ``highest_charge``, in the default configurations (ascending Z)."""
+    members = []
+    for charge in range(LOWEST_BOUND_CHARGE, highest_charge + 1):
+        z = electrons + charge
+        if 1 <= z <= _MAX_Z and _closed(default_configuration(z, charge)):
+            members.append((z, charge))
+    return tuple(members)
 
 
 def require_closed_shell(Z: int, charge: int, subshells: Iterable[Subshell]) -> None:
@@ -286,7 +314,8 @@ def require_closed_shell(Z: int, charge: int, subshells: Iterable[Subshell]) -> 
     Raises
     ------
     ConfigurationError
-        If the electron count differs from ``Z - charge`` or a subshell is given twice.
+        If the electron count differs from ``Z - charge``, a subshell is given twice or the charge
+        is below LOWEST_BOUND_CHARGE.
     OpenShellError
         If a subshell is partially filled; the message lists nearby closed-shell charge states.
     """
@@ -300,6 +329,11 @@ def require_closed_shell(Z: int, charge: int, subshells: Iterable[Subshell]) -> 
         fix = f" or set atom.charge to {Z - count}" if count >= 1 else ""
         raise _cfg_error(f"{text!r} has {count} electrons but {SYMBOLS[Z - 1]} (Z={Z}) with "
                          f"atom.charge {charge} has {wanted}; fix atom.configuration{fix}")
+    if charge < LOWEST_BOUND_CHARGE:
+        raise ConfigurationError(
+            f"atom.charge: {charge}: Hartree-Fock binds no anion of {ion_name(Z, charge)}'s charge (the"
+            f" outermost orbital of every closed-shell dianion lies in the continuum); use a charge >= {LOWEST_BOUND_CHARGE}"
+        )
     if count == 1:
         return  # hydrogen-like: HF is exact for one electron
     open_ = [str(s) for s in subshells if 0 < s.occupation < s.capacity]

@@ -14,14 +14,14 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from tdhf.errors import ConfigurationError
+from tdhf.errors import ConfigurationError, InputError
 from tdhf.numerics.threads import single_blas_thread
 from tdhf.potentials import OccupiedShells
-from tdhf.radial.mesh import GridSettings, RadialGrid, build_grid
-from tdhf.scf import ScfSettings, solve_scf
+from tdhf.radial.mesh import MAX_R_MAX, GridSettings, RadialGrid, build_grid
+from tdhf.scf import ScfSettings, ScfSolution, solve_scf
 from tdhf.system import System
 
-__all__ = ["OrbitalResult", "GroundState", "solve_ground_state", "BOX_DECAY"]
+__all__ = ["OrbitalResult", "GroundState", "solve_ground_state", "starting_box", "BOX_DECAY"]
 
 logger = logging.getLogger(__name__)
 
@@ -71,7 +71,9 @@ class GroundState:
     (direct e–e), ``exchange_energy`` (negative); ``virial_ratio`` = -V/T (2 for the exact HF
     solution).  Totals ``mean_r`` etc. are sums over all electrons of :math:`\\langle r^k \\rangle`.
     ``density_at_nucleus`` is :math:`\\rho(0)` in bohr^-3 and ``cusp_ratio`` is
-    :math:`-\\rho'(0) / (2 Z \\rho(0))`, 1 by Kato's theorem.
+    :math:`-\\rho'(0) / (2 Z \\rho(0))`, 1 by Kato's theorem; without an occupied s orbital
+    :math:`\\rho(0) = 0` exactly (P ~ r^(l+1)), the theorem says nothing and ``cusp_ratio`` is None.
+    ``scf_message`` says what stopped the SCF (:attr:`tdhf.scf.ScfSolution.message`).
     """
 
     system: System
@@ -88,11 +90,12 @@ class GroundState:
     mean_r: float
     mean_r_squared: float
     density_at_nucleus: float
-    cusp_ratio: float
+    cusp_ratio: float | None
     iterations: int
     orbital_change: float
     energy_change: float
     scf_strategy: str
+    scf_message: str
     r_max: float
     grid_points: int
     box_decay: float
@@ -107,6 +110,11 @@ class GroundState:
     @property
     def homo_energy(self) -> float:
         return float(self.orbital_energies.max())
+
+
+def starting_box(system: System, grid_settings: GridSettings) -> float:
+    """The box radius (bohr) of the first SCF: the given r_max, else DEFAULT_R_MAX (ANION_R_MAX for anions)."""
+    return grid_settings.r_max or (ANION_R_MAX if system.charge < 0 else DEFAULT_R_MAX)
 
 
 @single_blas_thread
@@ -125,7 +133,7 @@ def solve_ground_state(
         If the outermost orbital is not bound (orbital energy >= 0): the ion does not exist in HF.
     """
     automatic = grid_settings.r_max is None
-    r_max = grid_settings.r_max or (ANION_R_MAX if system.charge < 0 else DEFAULT_R_MAX)
+    r_max = starting_box(system, grid_settings)
     for _ in range(4):
         grid = build_grid(grid_settings, system.Z, r_max)
         solution = solve_scf(grid, system.Z, system.subshells, scf_settings)
@@ -136,11 +144,18 @@ def solve_ground_state(
                 f" (energy {homo:+.4f} hartree); choose a less negative charge"
             )
         decay = np.sqrt(-2.0 * homo) * r_max
-        if not automatic or decay >= BOX_DECAY or not solution.converged:
+        if not automatic or decay >= BOX_DECAY or not solution.converged or r_max >= MAX_R_MAX:
             break
-        r_max = 1.15 * BOX_DECAY / np.sqrt(-2.0 * homo)
+        r_max = min(1.15 * BOX_DECAY / np.sqrt(-2.0 * homo), MAX_R_MAX)
         logger.info("box enlarged to %.1f bohr (kappa R was %.1f)", r_max, decay)
     notes = []
+    first = grid_settings.first_element
+    if first is not None and first * system.Z > 1.0:
+        notes.append(
+            f"grid.first_element: {first:g} bohr is larger than the 1s orbital of {system.name} (size 1/Z ="
+            f" {1.0 / system.Z:.3g} bohr), so the nucleus is not resolved and the energy can be far off;"
+            f" leave it out for the default 0.1/Z"
+        )
     if decay < BOX_DECAY:
         notes.append(
             f"grid.r_max: the outermost orbital has decayed only to exp(-{decay:.1f}) at r = {r_max:g} bohr;"
@@ -148,12 +163,43 @@ def solve_ground_state(
         )
     if not solution.converged:
         notes.append(
-            f"scf: not converged after {solution.iterations} iterations (DIIS, then damped DIIS);"
-            f" orbital change {solution.residual:.1e}, energy change {solution.energy_change:.1e}"
+            f"scf: not converged after {solution.iterations} iterations (DIIS, then damped DIIS;"
+            f" {solution.message}); orbital change {solution.residual:.1e}, energy change"
+            f" {solution.energy_change:.1e}"
         )
+    if system.charge < 0 and solution.converged:
+        notes += _electron_loss_notes(system, solution, grid_settings, scf_settings)
     for note in notes:
         warnings.warn(note, RuntimeWarning, stacklevel=2)
     return _ground_state_result(system, grid, solution, grid_settings, scf_settings, decay, tuple(notes))
+
+
+def _electron_loss_notes(
+    system: System, solution: ScfSolution, grid_settings: GridSettings, scf_settings: ScfSettings
+) -> list[str]:
+    """A note if the anion's HF energy lies above the neutral atom's (plus free electrons at rest).
+
+    A negative orbital energy does not make an anion bound: H- has epsilon = -0.046 hartree but
+    E = -0.4879 > E(H) = -0.5 in HF.  The check needs the neutral atom, so it is made where that is
+    closed-shell or one-electron (H-); an open-shell neutral atom is beyond this program.
+    """
+    try:
+        neutral = System.from_input(system.Z)
+    except InputError:
+        return []
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        reference = solve_ground_state(neutral, grid_settings, scf_settings)
+    if not (reference.converged and solution.total_energy > reference.total_energy):
+        return []
+    extra = -system.charge
+    return [
+        f"atom.charge: {system.name} is unbound against electron loss in Hartree-Fock: its energy"
+        f" {solution.total_energy:.8f} hartree lies above that of {neutral.name} and {extra} free"
+        f" electron{'s' if extra > 1 else ''} ({reference.total_energy:.8f} hartree), although its"
+        f" orbital energy {float(solution.orbital_energies.max()):+.6f} hartree is negative;"
+        " its results describe a state Hartree-Fock does not bind"
+    ]
 
 
 def _ground_state_result(system, grid, solution, grid_settings, scf_settings, decay, notes) -> GroundState:
@@ -198,11 +244,12 @@ def _ground_state_result(system, grid, solution, grid_settings, scf_settings, de
         mean_r=float(q @ powers[1]),
         mean_r_squared=float(q @ powers[2]),
         density_at_nucleus=density_at_nucleus,
-        cusp_ratio=-density_slope / (2.0 * system.Z * density_at_nucleus),
+        cusp_ratio=-density_slope / (2.0 * system.Z * density_at_nucleus) if s_orbitals.any() else None,
         iterations=solution.iterations,
         orbital_change=solution.residual,
         energy_change=solution.energy_change,
         scf_strategy=solution.strategy,
+        scf_message=solution.message,
         r_max=grid.r_max,
         grid_points=grid.size,
         box_decay=float(decay),

@@ -19,6 +19,7 @@ Energies are in hartree.  The total energy is
 from __future__ import annotations
 
 import logging
+import math
 from dataclasses import dataclass, replace
 from typing import Protocol, Sequence
 
@@ -72,8 +73,9 @@ class ScfSettings:
                 raise InputError(f"scf.{key}: {value!r} must be in (0, 1); the default is {getattr(ScfSettings, key)}")
         if isinstance(self.max_iterations, bool) or not isinstance(self.max_iterations, int) or not 1 <= self.max_iterations <= 10000:
             raise InputError(f"scf.max_iterations: {self.max_iterations!r} must be an integer in 1..10000; the default is 120")
-        if isinstance(self.diis_size, bool) or not isinstance(self.diis_size, int) or not 1 <= self.diis_size <= 50:
-            raise InputError(f"scf.diis_size: {self.diis_size!r} must be an integer in 1..50; the default is 10")
+        # DIIS keeps 2 diis_size Fock-sized matrices per symmetry, the largest memory use of a run.
+        if isinstance(self.diis_size, bool) or not isinstance(self.diis_size, int) or not 1 <= self.diis_size <= 20:
+            raise InputError(f"scf.diis_size: {self.diis_size!r} must be an integer in 1..20; the default is 10")
         if not 0.0 <= self.damping < 1.0:
             raise InputError(f"scf.damping: {self.damping!r} must be in [0, 1); the default is 0.5")
 
@@ -124,6 +126,10 @@ class ScfSolution:
     history : tuple of (iteration, energy, energy change, orbital change)
     strategy : str
         What finally ran: "diis" or "damped-diis".
+    message : str
+        What stopped the loop: "converged", "iteration limit reached" or "non-finite values
+        (NaN or Inf) in the Fock matrix at iteration k" (then the energies are NaN: no number
+        from a broken solve).
     """
 
     shells: OccupiedShells
@@ -139,6 +145,7 @@ class ScfSolution:
     energy_change: float
     history: tuple[tuple[int, float, float, float], ...]
     strategy: str
+    message: str
 
     @property
     def total_energy(self) -> float:
@@ -239,11 +246,15 @@ def solve_scf(
                          iteration, energy, change, orbital_change, state.residual)
             energy_floor = max(settings.energy_tolerance, ENERGY_ROUNDOFF * abs(energy))
             converged = change < energy_floor and orbital_change < settings.residual_tolerance
-            if converged or iteration == 2 * settings.max_iterations:
+            finite = math.isfinite(energy) and all(np.isfinite(m).all() for m in state.fock.values())
+            if converged or not finite or iteration == 2 * settings.max_iterations:
+                message = ("converged" if converged else "iteration limit reached" if finite else
+                           f"non-finite values (NaN or Inf) in the Fock matrix at iteration {iteration}")
+                components = state.components if finite else dict.fromkeys(state.components, math.nan)
                 return ScfSolution(
                     shells=shells,
-                    orbital_energies=state.orbital_energies,
-                    **state.components,
+                    orbital_energies=state.orbital_energies if finite else np.full(len(specs), math.nan),
+                    **components,
                     converged=converged,
                     iterations=iteration,
                     residual=orbital_change,
@@ -251,6 +262,7 @@ def solve_scf(
                     energy_change=change,
                     history=tuple(history),
                     strategy=strategy,
+                    message=message,
                 )
             previous_energy = energy
             fock = state.fock

@@ -302,7 +302,7 @@ def test_cli_unexpected_error_exits_1_with_one_line(monkeypatch):
     def broken(deck, progress=None):
         raise RuntimeError("something impossible")
 
-    monkeypatch.setattr(tdhf.cli, "run_deck", broken)
+    monkeypatch.setattr("tdhf.driver.run_deck", broken)
     out, err = io.StringIO(), io.StringIO()
     assert tdhf.cli.main(["atom", "He"], stdout=out, stderr=err) == 1
     assert out.getvalue() == ""

@@ -40,7 +40,6 @@ from tdhf.properties.response_properties import compute_response
 from tdhf.ground_state import GroundState, solve_ground_state
 from tdhf.properties import dispersion
 from tdhf.properties.dispersion import (
-    CSV_COLUMNS,
     ERROR_FLOOR,
     RELATIVE_ERROR_GOAL,
     casimir_polder_coefficients,
@@ -49,12 +48,11 @@ from tdhf.properties.dispersion import (
     dispersion_table,
     imaginary_frequency_rule,
     imaginary_polarizabilities,
-    write_polarizability_csv,
 )
 from tdhf.properties.spectrum import EIGEN_CUTOFF, rpa_eigen_excitations
 from tdhf.properties.sum_rules import energy_weighted_sum
 from tdhf.radial.mesh import GridSettings
-from tdhf.report.serialize import to_jsonable
+from tdhf.report.serialize import CSV_COLUMNS, to_jsonable, write_polarizability_csv
 from tdhf.response.solver import ResponseSolver
 from tdhf.system import System
 

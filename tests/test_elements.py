@@ -274,7 +274,7 @@ def test_require_closed_shell_accepts_one_electron(z, charge, text):
     (9, 0, "[He]2s2 2p5", "2p5", ["F- (charge -1)", "F5+ (charge 5)"]),
     (11, 0, "[Ne]3s1", "3s1", ["Na+ (charge 1)", "Na- (charge -1)"]),
     (3, 0, "1s2 2s1", "2s1", ["Li+ (charge 1)", "Li- (charge -1)"]),
-    (8, 0, "[He]2s2 2p4", "2p4", ["O2- (charge -2)"]),
+    (8, 0, "[He]2s2 2p4", "2p4", ["O4+ (charge 4)"]),  # not O2-: HF does not bind it (LOWEST_BOUND_CHARGE)
     (12, 0, "[Ne]3s1 3p1", "3s1 3p1", ["Mg (charge 0)", "Mg2+ (charge 2)"]),
 ])
 def test_require_closed_shell_open_shell(z, charge, text, open_part, suggestions):
@@ -288,6 +288,24 @@ def test_require_closed_shell_open_shell(z, charge, text, open_part, suggestions
         assert item in message
     listed = message.split(": ")[-1].split(";")[0].split(", ")
     assert 1 <= len(listed) <= 4
+    assert "2-" not in message
+
+
+@pytest.mark.slow
+def test_suggested_anions_are_the_ones_hartree_fock_binds():
+    """Self-consistency of LOWEST_BOUND_CHARGE: a suggested anion solves, the dianion below it does not."""
+    from tdhf.radial.mesh import GridSettings, build_grid
+    from tdhf.scf import solve_scf
+
+    def homo(z: int, charge: int) -> float:  # the SCF alone: System refuses dianions up front
+        grid = build_grid(GridSettings(), z, 80.0)
+        return float(solve_scf(grid, z, default_configuration(z, charge)).orbital_energies.max())
+
+    for z in (8, 16):  # O2-, S2- (closed shells): the outermost orbital is in the (box) continuum
+        assert homo(z, -2) > 0.0
+        with pytest.raises(ConfigurationError, match="binds no anion"):
+            require_closed_shell(z, -2, default_configuration(z, -2))
+    assert homo(17, -1) < -0.1  # Cl-: bound, epsilon -0.150 (measured)
 
 
 def test_open_shell_suggestions_are_the_nearest_four():

@@ -36,3 +36,14 @@ def test_numerical_core_imports_no_files_terminal_or_cli():
     for path in core:
         bad = [name for name in _imports(path) if name.startswith(forbidden)]
         assert not bad, f"{path.relative_to(PACKAGE)} imports {bad}"
+
+
+def test_the_command_line_imports_no_numerics_until_a_command_runs():
+    """Common practice, no source: ``tdhf --help`` must not pay for numpy, scipy and rich (speed is
+    measured in benchmarks/bench_startup.py; this only checks which modules load)."""
+    import subprocess
+    import sys
+
+    probe = "import sys, tdhf.cli; print(sorted(m for m in ('numpy', 'scipy', 'rich', 'tdhf.deck') if m in sys.modules))"
+    loaded = subprocess.run([sys.executable, "-c", probe], capture_output=True, text=True, check=True).stdout
+    assert loaded.strip() == "[]"

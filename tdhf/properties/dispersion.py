@@ -92,13 +92,9 @@ the pair ``converged=False``, and a note naming the system goes to ``warnings`` 
 
 from __future__ import annotations
 
-import csv
 import math
-import os
-import tempfile
 import warnings
 from dataclasses import dataclass
-from pathlib import Path
 from typing import Any, Callable, Iterable, Sequence
 
 import numpy as np
@@ -116,7 +112,6 @@ __all__ = [
     "compute_dispersion",
     "dispersion_table",
     "dispersion_pairs",
-    "write_polarizability_csv",
     "imaginary_frequency_rule",
     "companion_points",
     "imaginary_polarizabilities",
@@ -127,7 +122,6 @@ __all__ = [
     "QUADRATURE_RANGE",
     "RELATIVE_ERROR_GOAL",
     "ERROR_FLOOR",
-    "CSV_COLUMNS",
 ]
 
 #: Multipole orders whose polarizabilities enter C6, C8, C10: dipole, quadrupole, octupole.
@@ -145,8 +139,6 @@ RELATIVE_ERROR_GOAL = 1e-6
 #: errors of 1.1e-9 at n = 24 and 8e-10 at n = 36 against n = 96), so a difference of two rules
 #: alone could understate the error there.
 ERROR_FLOOR = 1e-9
-#: Header of :func:`write_polarizability_csv`.
-CSV_COLUMNS = ("system", "frequency_hartree", "weight", "alpha1", "alpha2", "alpha3")
 
 #: (2 l_A + 2 l_B)! / ((2 l_A)! (2 l_B)!) / (2 pi) for each (l_A, l_B) of C6, C8, C10.
 _PREFACTORS = {
@@ -636,27 +628,3 @@ def dispersion_pairs(
         if not (0 <= i < n and 0 <= j < n):
             raise InputError(f"dispersion.pairs[{number}]: ({i}, {j}) is not a pair of the {n} systems")
     return _run(tuple(ground_states), list(pairs), quadrature_points, progress, map_tasks, tolerances)
-
-
-def write_polarizability_csv(path: str | Path, tables: Sequence[ImaginaryFrequencyTable]) -> None:
-    """Write the tables as CSV (columns CSV_COLUMNS, one row per system and node; a.u., hartree).
-
-    Floats are written with ``repr`` (they read back bit-identical; NaN as ``nan``).  The file is
-    written to a temporary file next to ``path`` and moved over it, so it is never left partial.
-    """
-    path = Path(path)
-    handle, temporary = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(handle, "w", encoding="utf-8", newline="") as stream:
-            writer = csv.writer(stream)
-            writer.writerow(CSV_COLUMNS)
-            for table in tables:
-                for row in zip(table.frequencies, table.weights, table.dipole, table.quadrupole, table.octupole):
-                    writer.writerow([table.system, *(repr(float(x)) for x in row)])
-        mask = os.umask(0)
-        os.umask(mask)
-        os.chmod(temporary, 0o666 & ~mask)  # mkstemp makes the file private (0600)
-        os.replace(temporary, path)
-    except BaseException:
-        Path(temporary).unlink(missing_ok=True)
-        raise

@@ -18,6 +18,7 @@ and the node at r = R are removed, which imposes both Dirichlet conditions.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -25,7 +26,8 @@ import numpy as np
 from tdhf.errors import GridError
 from tdhf.radial.lobatto import lobatto_derivative_matrix, lobatto_rule
 
-__all__ = ["RadialGrid", "GridSettings", "build_grid", "geometric_boundaries"]
+__all__ = ["RadialGrid", "GridSettings", "build_grid", "geometric_boundaries", "grid_size", "check_grid_size",
+           "MAX_GRID_POINTS", "MAX_R_MAX"]
 
 
 @dataclass(frozen=True, eq=False)
@@ -165,6 +167,16 @@ def geometric_boundaries(first_element: float, r_max: float, n_elements: int) ->
 FIRST_ELEMENT_TIMES_Z = 0.1
 #: Smallest element size anywhere, bohr: keeps the innermost kinetic eigenvalues (~1/h^2) modest.
 MIN_FIRST_ELEMENT = 1e-4
+#: Largest box radius, bohr, given or automatic.
+MAX_R_MAX = 2000.0
+#: Largest number of radial points.  Measured peak memory of a Rn ground state (4 symmetries, DIIS
+#: history of 10): 1.9 GB at 1079 points, 3.6 GB at 1475, i.e. ~200 dense n x n float64 matrices,
+#: most of them the DIIS history; the response adds little.  1000 points: ~1.6 GB, ~30 s.  The
+#: default grids have 110-250 points, the tight preset up to ~500 and its refinement
+#: (``--certify``) up to ~800 at the largest box.
+MAX_GRID_POINTS = 1000
+#: Dense n x n float64 matrices a run holds at its peak (for the memory estimate in messages).
+_MATRICES_PER_RUN = 200
 
 
 @dataclass(frozen=True)
@@ -199,8 +211,8 @@ class GridSettings:
                 f"grid.first_element: {self.first_element!r} bohr must be in [{MIN_FIRST_ELEMENT}, 1];"
                 " leave it out for the default 0.1/Z"
             )
-        if self.r_max is not None and not 5.0 <= self.r_max <= 2000.0:
-            raise GridError(f"grid.r_max: {self.r_max!r} bohr must be in [5, 2000]; leave it out for automatic")
+        if self.r_max is not None and not 5.0 <= self.r_max <= MAX_R_MAX:
+            raise GridError(f"grid.r_max: {self.r_max!r} bohr must be in [5, {MAX_R_MAX:g}]; leave it out for automatic")
 
     @classmethod
     def tight(cls) -> "GridSettings":
@@ -217,12 +229,60 @@ class GridSettings:
         )
 
 
-def build_grid(settings: GridSettings, nuclear_charge: float, r_max: float) -> RadialGrid:
-    """Geometric FE-DVR grid for nuclear charge Z in a box of radius ``r_max`` bohr."""
+def _first_element(settings: GridSettings, nuclear_charge: float, r_max: float) -> float:
     first = settings.first_element or max(FIRST_ELEMENT_TIMES_Z / nuclear_charge, MIN_FIRST_ELEMENT)
-    first = min(first, 0.5 * r_max)
-    # Number of elements so that consecutive sizes grow by at most ``growth``.
-    n_elements = 2
-    while first * (settings.growth**n_elements - 1.0) / (settings.growth - 1.0) < r_max:
-        n_elements += 1
+    return min(first, 0.5 * r_max)
+
+
+def _reaches(first: float, growth: float, n_elements: int, r_max: float) -> bool:
+    """True if ``n_elements`` elements growing by ``growth`` from ``first`` cover [0, r_max]."""
+    return first * (growth**n_elements - 1.0) / (growth - 1.0) >= r_max
+
+
+def grid_size(settings: GridSettings, nuclear_charge: float, r_max: float) -> tuple[int, int]:
+    """(elements, radial points) of :func:`build_grid` for these arguments, without building it.
+
+    The element count is the smallest N >= 2 with ``h (g^N - 1)/(g - 1) >= r_max`` (consecutive
+    sizes grow by at most g), ``N ~ log(1 + r_max (g - 1)/h) / log g``; points = N p - 1.
+    """
+    first, growth = _first_element(settings, nuclear_charge, r_max), settings.growth
+    estimate = math.log1p(r_max * (growth - 1.0) / first) / math.log1p(growth - 1.0)
+    if estimate > MAX_GRID_POINTS:  # more elements than points allowed: the exact count (g^N may overflow) is moot
+        n_elements = math.ceil(estimate)
+    else:
+        n_elements = max(2, math.ceil(estimate) - 1)
+        while n_elements > 2 and _reaches(first, growth, n_elements - 1, r_max):
+            n_elements -= 1
+        while not _reaches(first, growth, n_elements, r_max):
+            n_elements += 1
+    return n_elements, n_elements * settings.order - 1
+
+
+def check_grid_size(settings: GridSettings, nuclear_charge: float, r_max: float) -> tuple[int, int]:
+    """:func:`grid_size`, after checking that the points stay within MAX_GRID_POINTS.
+
+    Raises
+    ------
+    GridError
+        Before anything is allocated, naming the points and memory the settings would need.
+    """
+    n_elements, points = grid_size(settings, nuclear_charge, r_max)
+    if points > MAX_GRID_POINTS:
+        gigabytes = _MATRICES_PER_RUN * 8.0 * float(points) ** 2 / 1e9
+        raise GridError(
+            f"grid: order {settings.order}, growth {settings.growth:g} and first element"
+            f" {_first_element(settings, nuclear_charge, r_max):g} bohr need {points:.3g} radial points"
+            f" (~{gigabytes:.2g} GB) to reach r = {r_max:g} bohr, above the limit of {MAX_GRID_POINTS};"
+            " use a larger grid.growth or grid.first_element, or a lower grid.order (defaults: 10, 1.9, 0.1/Z)"
+        )
+    return n_elements, points
+
+
+def build_grid(settings: GridSettings, nuclear_charge: float, r_max: float) -> RadialGrid:
+    """Geometric FE-DVR grid for nuclear charge Z in a box of radius ``r_max`` bohr.
+
+    Raises GridError (:func:`check_grid_size`) rather than allocate more than MAX_GRID_POINTS.
+    """
+    n_elements, _ = check_grid_size(settings, nuclear_charge, r_max)
+    first = _first_element(settings, nuclear_charge, r_max)
     return RadialGrid.from_boundaries(geometric_boundaries(first, r_max, n_elements), settings.order)

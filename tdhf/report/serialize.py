@@ -1,4 +1,6 @@
-"""JSON output: results (frozen dataclasses holding numpy data) to plain JSON values, atomic writes.
+"""JSON and CSV output: results (frozen dataclasses holding numpy data) to plain JSON values and
+CSV tables, written by the safe writer of :mod:`tdhf.report.files` (checked, atomic, never over a
+device or through a symlink).
 
 Conventions
 -----------
@@ -20,17 +22,22 @@ Conventions
 
 from __future__ import annotations
 
+import csv
 import dataclasses
+import io
 import json
 import math
-import os
-import tempfile
 from pathlib import Path
-from typing import Any
+from typing import Any, Sequence
 
 import numpy as np
 
-__all__ = ["to_jsonable", "write_json"]
+from tdhf.report.files import OutputTarget, write_text
+
+__all__ = ["to_jsonable", "write_json", "write_polarizability_csv", "CSV_COLUMNS"]
+
+#: Header of :func:`write_polarizability_csv`.
+CSV_COLUMNS = ("system", "frequency_hartree", "weight", "alpha1", "alpha2", "alpha3")
 
 
 def to_jsonable(obj: Any) -> Any:
@@ -64,29 +71,25 @@ def to_jsonable(obj: Any) -> Any:
     raise TypeError(f"cannot write a {type(obj).__name__} to JSON: {obj!r}")
 
 
-def write_json(path: str | Path, data: Any) -> None:
-    """Write ``to_jsonable(data)`` to ``path`` atomically.
+def write_json(path: str | Path | OutputTarget, data: Any, option: str = "") -> None:
+    """Write ``to_jsonable(data)`` to ``path`` (:func:`tdhf.report.files.write_text`).
 
-    The text is written to a temporary file in the same directory and moved over ``path`` with
-    :func:`os.replace`, so ``path`` holds either its previous content or the complete new file,
-    never a partial one.
+    The JSON text is made before the file is touched, so data with no JSON form (TypeError) leaves
+    the file as it was.  Raises :class:`~tdhf.errors.OutputError` if the file cannot be written.
     """
-    path = Path(path)
-    text = json.dumps(to_jsonable(data), indent=2, allow_nan=False) + "\n"
-    handle, temporary = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(handle, "w", encoding="utf-8") as stream:
-            stream.write(text)
-            stream.flush()
-            os.fsync(stream.fileno())
-        os.chmod(temporary, 0o666 & ~_umask())  # mkstemp makes the file private (0600)
-        os.replace(temporary, path)
-    except BaseException:
-        Path(temporary).unlink(missing_ok=True)
-        raise
+    write_text(path, json.dumps(to_jsonable(data), indent=2, allow_nan=False) + "\n", option)
 
 
-def _umask() -> int:
-    mask = os.umask(0)
-    os.umask(mask)
-    return mask
+def write_polarizability_csv(path: str | Path | OutputTarget, tables: Sequence[Any], option: str = "") -> None:
+    """Write alpha_L(i w) tables as CSV (columns CSV_COLUMNS, one row per system and node; a.u., hartree).
+
+    ``tables`` are :class:`tdhf.properties.dispersion.ImaginaryFrequencyTable`.  Floats are written
+    with ``repr`` (they read back bit-identical; NaN as ``nan``).  Written like :func:`write_json`.
+    """
+    stream = io.StringIO(newline="")
+    writer = csv.writer(stream)
+    writer.writerow(CSV_COLUMNS)
+    for table in tables:
+        for row in zip(table.frequencies, table.weights, table.dipole, table.quadrupole, table.octupole):
+            writer.writerow([table.system, *(repr(float(x)) for x in row)])
+    write_text(path, stream.getvalue(), option)
