@@ -270,9 +270,9 @@ def _print_comparison(console: "Console", result) -> None:
                          overflow="fold")
     for row in result.comparison:
         what = row.property + "".join(
-            f" {name}={value}" for name, value in (("L", row.multipole), ("w", row.frequency), ("k", row.k),
-                                                    ("orbital", row.orbital), ("line", row.index),
-                                                    ("with", row.partner)) if value is not None)
+            f" {name}{value:g}" if isinstance(value, float) else f" {name}{value}"
+            for name, value in (("L=", row.multipole), ("w=", row.frequency), ("k=", row.k), ("", row.orbital),
+                                ("line ", row.index), ("with ", row.partner)) if value is not None)
         if row.imaginary:
             what += " imaginary"
         if row.level == "uncoupled":

@@ -30,6 +30,7 @@ from tdhf.properties.dispersion import (
     ImaginaryFrequencyTable,
     TaskMap,
     compute_dispersion,
+    dispersion_pairs,
     dispersion_table,
 )
 from tdhf.properties.polarizability import DipoleShielding, Polarizability, QuadrupoleShielding
@@ -156,8 +157,12 @@ class RunResult:
     settings : RunSettings
         The effective options.
     program : ProgramInfo
+        The program and version that made the result.
+    conventions : Conventions
+        Units and normalizations of every number, in words.
     partner_ground_states : tuple of GroundState
-        Ground states of the dispersion partners (not written to JSON).
+        Ground states of every system of the dispersion pairs, in the order of the deck (the
+        atom's own among them if it is paired); absent from JSON without [dispersion].
     """
 
     atom: System
@@ -176,7 +181,7 @@ class RunResult:
     settings: RunSettings
     program: ProgramInfo = field(default_factory=program_info)
     conventions: Conventions = field(default_factory=Conventions)
-    partner_ground_states: tuple[GroundState, ...] = field(default=(), repr=False, metadata={"json": False})
+    partner_ground_states: tuple[GroundState, ...] = field(default=(), repr=False)
 
     @property
     def converged(self) -> bool:
@@ -301,7 +306,7 @@ def _run_dispersion(
     Each other system is solved with the deck's grid and SCF settings (the atom's own ground state
     is reused).  A system whose ground state or response fails only marks its own pairs.
     """
-    names = section.partners or section.systems
+    names = section.names
     others = []
     for name in names:
         system = System.from_input(*parse_system_name(name))
@@ -318,6 +323,11 @@ def _run_dispersion(
     if section.partners:
         results = compute_dispersion(ground_state, tuple(others), quadrature_points=section.quadrature_points,
                                      tolerances=deck.tolerances, map_tasks=map_tasks)
+    elif section.pairs:
+        index = {name: k for k, name in enumerate(names)}
+        pairs = [tuple(index[name] for name in pair.split(":")) for pair in section.pairs]
+        results = dispersion_pairs(others, pairs, quadrature_points=section.quadrature_points, progress=count,
+                                   tolerances=deck.tolerances, map_tasks=map_tasks)
     else:
         series = [ground_state] + [state for state in others if state is not ground_state]
         results = dispersion_table(series, quadrature_points=section.quadrature_points, progress=count,

@@ -101,7 +101,8 @@ def quantities(result: RunResult) -> tuple[Quantity, ...]:
     """Every finite number of ``result`` as a Quantity, with its certified uncertainty if any."""
     uncertainty = result.uncertainties()
     rows = []
-    for row in _rows(result):
+    every = list(_rows(result))
+    for row in every + list(_static_rows(result, every)):
         if row.value is None or not math.isfinite(row.value):
             continue
         rows.append(replace(row, value=float(row.value), uncertainty=uncertainty.get(row.path)))
@@ -152,11 +153,28 @@ def _rows(result: RunResult) -> Iterator[Quantity]:
         yield Quantity(name, "oscillator_strength", row.oscillator_strength,
                        property_unit("oscillator_strength", row.multipole),
                        f"excitations[{i}].oscillator_strength", **common)
+    for i, state in enumerate(result.partner_ground_states):
+        if state.system != result.atom:
+            yield Quantity(state.system.name, "total_energy", state.total_energy, "hartree",
+                           f"partner_ground_states[{i}].total_energy", converged=state.converged)
     for i, row in enumerate(result.dispersion):
         first, second = row.pair
         for order, value in (("C6", row.C6), ("C8", row.C8), ("C10", row.C10)):
             yield Quantity(first, order, value, property_unit(order), f"dispersion[{i}].{order}",
                            partner=second, level="coupled", converged=row.converged)
+
+
+def _static_rows(result: RunResult, rows: list[Quantity]) -> Iterator[Quantity]:
+    """alpha_L(0) of each dispersion table's system, unless a response row already has it."""
+    known = {key_of(q) for q in rows}
+    for i, table in enumerate(result.polarizability_tables):
+        for L, name in ((1, "static_dipole"), (2, "static_quadrupole"), (3, "static_octupole")):
+            row = Quantity(table.system, "polarizability", getattr(table, name), multipole_unit(L),
+                           f"polarizability_tables[{i}].{name}", multipole=L, frequency=0.0, imaginary=False,
+                           level="coupled", converged=table.converged)
+            if key_of(row) not in known:
+                known.add(key_of(row))
+                yield row
 
 
 def _sum_rule_unit(multipole: int, k: int) -> str:

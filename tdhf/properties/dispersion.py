@@ -199,7 +199,7 @@ class ImaginaryFrequencyTable:
         :math:`\alpha_1, \alpha_2, \alpha_3` at :math:`i\omega_k` (a.u.); NaN if that response failed.
     converged : bool
         False if any of the system's responses failed (its NaN entries).
-    static : tuple of float, shape (3,)
+    static_dipole, static_quadrupole, static_octupole : float
         :math:`\alpha_1(0), \alpha_2(0), \alpha_3(0)` (a.u.) from one static solve each (not used
         by the quadrature); NaN where that response failed.
     """
@@ -211,7 +211,9 @@ class ImaginaryFrequencyTable:
     quadrupole: tuple[float, ...]
     octupole: tuple[float, ...]
     converged: bool = True
-    static: tuple[float, ...] = ()
+    static_dipole: float = math.nan
+    static_quadrupole: float = math.nan
+    static_octupole: float = math.nan
 
 
 @dataclass(frozen=True)
@@ -507,7 +509,9 @@ def _table(response: _SystemResponse, rules: _Rules) -> ImaginaryFrequencyTable:
         quadrupole=tuple(float(x) for x in alpha[1]),
         octupole=tuple(float(x) for x in alpha[2]),
         converged=bool(np.all(np.isfinite(alpha))),
-        static=tuple(float(x) for x in response.alpha[:, -1]),
+        static_dipole=float(response.alpha[0, -1]),
+        static_quadrupole=float(response.alpha[1, -1]),
+        static_octupole=float(response.alpha[2, -1]),
     )
 
 

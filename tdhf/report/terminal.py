@@ -31,7 +31,7 @@ if TYPE_CHECKING:  # only for annotations: the report layer reads results, it do
     from tdhf.ground_state import GroundState
 
 __all__ = ["print_report", "header_line", "new_table", "MISSING", "ground_state_table", "orbital_table", "rows_table", "format_value",
-           "Column", "ROW_TABLES", "SERIES_COLUMNS", "UNCERTIFIED_DIGITS"]
+           "Column", "ROW_TABLES", "dispersion_systems_table", "SERIES_COLUMNS", "UNCERTIFIED_DIGITS"]
 
 MISSING = "-"
 #: Significant digits of a number printed without a certificate.
@@ -307,6 +307,25 @@ def rows_table(
     return table
 
 
+def dispersion_systems_table(result: "RunResult", uncertainties: Mapping[str, float] | None = None) -> Table:
+    """Each system of the dispersion tables: its total energy and static alpha_1, alpha_2, alpha_3."""
+    known = uncertainties or {}
+    energies = {result.atom.name: (result.ground_state.total_energy, "ground_state.total_energy")}
+    for i, state in enumerate(result.partner_ground_states):
+        energies.setdefault(state.system.name, (state.total_energy, f"partner_ground_states[{i}].total_energy"))
+    table = new_table("Systems of the dispersion table")
+    for header in ("system", "total energy\n(hartree)", "alpha_1(0)\n(bohr^3)", "alpha_2(0)\n(bohr^5)",
+                   "alpha_3(0)\n(bohr^7)"):
+        _add_column(table, header, "left" if header == "system" else "right")
+    for i, row in enumerate(result.polarizability_tables):
+        energy, path = energies.get(row.system, (None, ""))
+        cells = [format_value(energy, known.get(path))]
+        cells += [format_value(getattr(row, name), known.get(f"polarizability_tables[{i}].{name}"))
+                  for name in ("static_dipole", "static_quadrupole", "static_octupole")]
+        table.add_row(row.system, *cells)
+    return table
+
+
 def print_report(console: Console, result: "RunResult") -> None:
     """Print the header, the ground-state and orbital tables, and every non-empty result list."""
     uncertainties = result.uncertainties()
@@ -317,5 +336,7 @@ def print_report(console: Console, result: "RunResult") -> None:
         rows = getattr(result, name)
         if rows:
             console.print(rows_table(title, rows, columns, uncertainties, None if name == "certification" else name))
+        if name == "dispersion" and result.polarizability_tables:
+            console.print(dispersion_systems_table(result, uncertainties))
     if any(getattr(result, name) for name in ROW_TABLES if name != "certification") and not uncertainties:
         console.print(UNCERTIFIED_NOTE)
