@@ -133,7 +133,21 @@ class AtomSection:
 
 @dataclass(frozen=True)
 class ResponseSection:
-    """``[response]``: multipole orders and frequencies (hartree) of the linear response."""
+    """``[response]``: multipole orders and frequencies (hartree) of the linear response.
+
+    Attributes
+    ----------
+    multipoles : tuple of int
+        L = 1 (dipole), 2 (quadrupole), 3 (octupole).
+    frequencies, imaginary_frequencies : tuple of float
+        Real omega and imaginary nu (omega = i nu), hartree (read with units at the edge).
+    coupled : bool
+        Solve the coupled (TDHF) equations, not only the uncoupled ones.
+    broadening : float
+        eta, hartree: real frequencies become omega + i eta.
+    excitations : int
+        Lowest bound lines listed per multipole.
+    """
 
     multipoles: tuple[int, ...] = (1,)
     frequencies: tuple[float, ...] = (0.0,)
@@ -150,6 +164,8 @@ class DispersionSection:
     ``partners``: each is paired with the ``[atom]`` system.  ``systems``: a series; every
     unordered pair among ``[atom]`` and these systems (like pairs included) is computed.
     ``pairs``: exactly these pairs, each written "A:B" (e.g. "He:Ne"); [atom] need not be in one.
+    ``quadrature_points``: the base rule size n of the imaginary-frequency quadrature (the
+    reported values use n + n//2 nodes, :mod:`tdhf.properties.dispersion`).
     """
 
     partners: tuple[str, ...] = ()

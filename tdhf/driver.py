@@ -57,7 +57,25 @@ Progress = Callable[[str], None]
 
 @dataclass(frozen=True)
 class Conventions:
-    """The units and normalizations of every number in a result, written into the JSON."""
+    """The units and normalizations of every number in a result, written into the JSON.
+
+    Attributes
+    ----------
+    units : str
+        Atomic units of every number.
+    polarizability : str
+        The normalization of alpha_L.
+    dipole_shielding, quadrupole_shielding : str
+        What beta and gamma_inf are.
+    oscillator_strength : str
+        The definition of f and its sum rule.
+    uncoupled : str
+        What the uncoupled numbers are.
+    dispersion : str
+        The Casimir-Polder formulas of C6, C8, C10.
+    uncertainty : str
+        What ``<key>_uncertainty`` and ``certification`` mean.
+    """
 
     units: str = "atomic units: hartree, bohr; alpha_L in bohr^(2L+1); C_n in hartree bohr^n"
     polarizability: str = NORMALIZATION
@@ -80,7 +98,15 @@ class Conventions:
 
 @dataclass(frozen=True)
 class ProgramInfo:
-    """Name and installed version of the program that made a result."""
+    """Name and installed version of the program that made a result.
+
+    Attributes
+    ----------
+    name : str
+        "tdhf".
+    version : str
+        The installed version ("unknown" outside an installation).
+    """
 
     name: str
     version: str
@@ -100,6 +126,17 @@ class RunSettings:
     """Every effective option of a run (defaults filled in), stored with the results.
 
     ``deck_digest`` is :func:`tdhf.deck.deck_digest` of the deck (resume checks it).
+
+    Attributes
+    ----------
+    accuracy : str
+        The accuracy preset ("default" or "tight") the other settings started from.
+    grid, scf, tolerances : GridSettings, ScfSettings, ResponseTolerances
+        Radial grid, SCF and response-solver settings.
+    response, dispersion : ResponseSection, DispersionSection or None
+        The deck's [response] and [dispersion] tables with defaults filled in (None if absent).
+    schema : int
+        The deck format version.
     """
 
     accuracy: str
@@ -121,7 +158,7 @@ class Certification:
     "tolerances" or "quadrature"), ``difference`` = refined - value.  ``uncertainty`` =
     :data:`tdhf.certify.UNCERTAINTY_FACTOR` x |difference|: it covers the error of ``value`` when
     every variation at least halves the error of its approximation.  ``converged`` is False if
-    the number or a variation did not converge.
+    the number or a variation did not converge; ``relative_difference`` = |difference| / |value|.
     """
 
     quantity: str
@@ -147,7 +184,9 @@ class RunResult:
     polarizabilities, shielding, quadrupole_shielding, sum_rules, excitations, strength_distribution : tuple
         Rows from :func:`tdhf.properties.response_properties.compute_response` (empty without ``[response]``).
     dispersion : tuple of DispersionCoefficients
-        One row per pair (empty without ``[dispersion]``); ``polarizability_tables`` the alpha_L(i w) tables.
+        One row per pair (empty without ``[dispersion]``).
+    polarizability_tables : tuple of ImaginaryFrequencyTable
+        alpha_L(i w) of each system of the pairs on the quadrature nodes, and its static alpha_L(0).
     certification : tuple of Certification
         Empty unless the run was certified.
     warnings : tuple of str

@@ -58,7 +58,8 @@ class KeySpec:
 
 
 _FREQUENCY_TEXT = ("numbers in hartree, or strings with a unit such as \"1064 nm\" or \"2.5 eV\""
-                   f" ({', '.join(FREQUENCY_UNITS)})")
+                   f" ({', '.join(FREQUENCY_UNITS)}); at most {deck_module.MAX_FREQUENCIES} entries")
+_SYSTEMS_TEXT = f"; at most {deck_module.MAX_SYSTEMS} entries"
 
 #: Every deck key, in the order of the reference.
 DECK_KEYS = (
@@ -82,7 +83,7 @@ DECK_KEYS = (
     KeySpec("scf.residual_tolerance", "number", "", "largest accepted orbital change per iteration",
             0.0, 1.0, low_open=True, high_open=True),
     KeySpec("scf.max_iterations", "integer", "", "iterations per strategy (DIIS, then damped DIIS)", 1, 10000),
-    KeySpec("scf.diis_size", "integer", "", "Fock matrices kept by DIIS", 1, 50),
+    KeySpec("scf.diis_size", "integer", "", "Fock matrices kept by DIIS", 1, 20),
     KeySpec("scf.damping", "number", "", "fraction of the previous Fock matrix kept by the fallback", 0.0, 1.0,
             high_open=True),
     KeySpec("response.multipoles", "array of integers", "", "multipole orders L (1 dipole, 2 quadrupole,"
@@ -96,10 +97,10 @@ DECK_KEYS = (
     KeySpec("response.excitations", "integer", "", "lowest bound lines listed per multipole", 0,
             deck_module.MAX_EXCITATIONS),
     KeySpec("dispersion.partners", "array of strings", "", "systems paired with [atom] (\"He\", \"Na+\", ...);"
-            " give one of partners, systems, pairs"),
+            " give one of partners, systems, pairs" + _SYSTEMS_TEXT),
     KeySpec("dispersion.systems", "array of strings", "", "every pair among [atom] and these, like pairs"
-            " included"),
-    KeySpec("dispersion.pairs", "array of strings", "", "explicit unlike pairs \"A:B\""),
+            " included" + _SYSTEMS_TEXT),
+    KeySpec("dispersion.pairs", "array of strings", "", "exactly these pairs, each \"A:B\" (e.g. \"He:Ne\")" + _SYSTEMS_TEXT),
     KeySpec("dispersion.quadrature_points", "integer", "", "points of the imaginary-frequency quadrature",
             *QUADRATURE_RANGE),
 )
@@ -205,6 +206,17 @@ def attribute_docs(cls: type) -> dict[str, str]:
     return found
 
 
+_ROLE = re.compile(r":(?:func|mod|data|class|attr|meth):`~?([^`]+)`")
+_MATH = re.compile(r":math:`([^`]+)`")
+
+
+def _markdown(text: str) -> str:
+    """reStructuredText markup of a docstring as Markdown: ``x`` and :func:`x` become `x`."""
+    text = _ROLE.sub(r"`\1`", text)
+    text = _MATH.sub(r"\1", text)
+    return text.replace("``", "`").replace("|", "\\|")
+
+
 def _type_text(annotation: Any, seen: list[type]) -> str:
     origin = typing.get_origin(annotation)
     arguments = typing.get_args(annotation)
@@ -229,11 +241,11 @@ def _class_section(cls: type, seen: list[type]) -> list[str]:
     docs = attribute_docs(cls)
     summary = inspect.cleandoc(cls.__doc__ or "").split("\n\n")[0].replace("\n", " ")
     hints = typing.get_type_hints(cls)
-    lines = [f"### {cls.__name__}", "", summary, "", "| key | type | meaning |", "|---|---|---|"]
+    lines = [f"### {cls.__name__}", "", _markdown(summary), "", "| key | type | meaning |", "|---|---|---|"]
     for field in dataclasses.fields(cls):
         if not field.metadata.get("json", True):
             continue
-        meaning = " ".join(docs.get(field.name, "").split()).replace("|", "\\|")
+        meaning = _markdown(" ".join(docs.get(field.name, "").split()))
         lines.append(f"| `{field.name}` | {_type_text(hints[field.name], seen)} | {meaning} |")
     return lines + [""]
 
@@ -262,6 +274,7 @@ _ROOTS = (RunResult, Quantity, TableRow, Comparison)
 def field_reference() -> str:
     """The JSON/CSV field reference (Markdown)."""
     from tdhf.report import json_result
+    from tdhf.report.serialize import CSV_COLUMNS
 
     lines = [
         "# Result fields",
@@ -272,14 +285,15 @@ def field_reference() -> str:
         "",
         "## Files",
         "",
-        "* `tdhf run/atom/pairs --json`, `tdhf series --out`: a [RunResult](#runresult) object. "
-        + " ".join(inspect.cleandoc(json_result.__doc__ or "").split("\n\n", 1)[-1].split()),
+        "* `tdhf run/atom/pairs --json`, `tdhf series --out`: a [RunResult](#runresult) object:",
+        *("  * " + _markdown(" ".join(item.split())) for item in
+          inspect.cleandoc(json_result.__doc__ or "").split("\n\n", 1)[-1].split("* ") if item.strip()),
         "* `tdhf series/table --table FILE.csv`: one [TableRow](#tablerow) per line (the header names"
         " the columns); `.md` and `.tex` show the same rows with the certified digits only.",
         "* `tdhf compare --json`: a [Comparison](#comparison) object; `--csv`: one"
         " [ComparisonRow](#comparisonrow) per line.",
-        "* `tdhf run/pairs --csv`: alpha_L(i omega) on the quadrature nodes, columns `system,"
-        " frequency_hartree, weight, alpha1, alpha2, alpha3` (see"
+        f"* `tdhf run/pairs --csv`: alpha_L(i omega) on the quadrature nodes, columns `{', '.join(CSV_COLUMNS)}`"
+        " (see"
         " [ImaginaryFrequencyTable](#imaginaryfrequencytable): `weight` is the quadrature weight in"
         " hartree, so sum(weight x alpha_A x alpha_B) x 3/pi is C6).",
         "",
