@@ -35,7 +35,8 @@ import warnings
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Iterable, Iterator, Sequence, TextIO
 
-from tdhf.commands import COMMANDS, add_commands, add_parallel_options, add_table_options, add_units_option, execute
+from tdhf.commands import COMMANDS, add_commands, add_parallel_options, add_table_options, add_units_option, \
+    check_tables, execute, print_units_view, print_wide_view, write_tables
 from tdhf.errors import ConvergenceError, InputError, OutputError
 
 if TYPE_CHECKING:
@@ -122,9 +123,9 @@ def build_parser() -> argparse.ArgumentParser:
     atom.add_argument("--tight", action="store_true", help="use the tight grid preset")
     atom.add_argument("--multipoles", type=int, nargs="+", metavar="L",
                       help="response multipole orders (1 dipole, 2 quadrupole, 3 octupole)")
-    atom.add_argument("--frequencies", type=_frequency, nargs="+", metavar="W",
+    atom.add_argument("--frequencies", nargs="+", metavar="W",
                       help='real response frequencies, hartree or with a unit ("1064 nm", "2.5 eV")')
-    atom.add_argument("--imaginary", type=_frequency, nargs="+", metavar="W",
+    atom.add_argument("--imaginary", nargs="+", metavar="W",
                       help="imaginary response frequencies, hartree or with a unit")
     atom.add_argument("--excitations", type=int, metavar="N",
                       help="list the N lowest bound lines of each multipole")
@@ -159,14 +160,6 @@ def build_parser() -> argparse.ArgumentParser:
         add_units_option(command)
     add_commands(commands, talk_only)
     return parser
-
-
-def _frequency(text: str) -> float | str:
-    """A number (hartree), or the text with a unit for the deck to read ("1064 nm")."""
-    try:
-        return float(text)
-    except ValueError:
-        return text
 
 
 def _deck_from_arguments(args: argparse.Namespace) -> "Deck":
@@ -403,15 +396,19 @@ def _execute_series(args: argparse.Namespace, stdout: TextIO, err_console: "Cons
     from tdhf.report.terminal import SERIES_COLUMNS, print_report, rows_table
     from tdhf.series import run_series
 
-    from tdhf.commands import check_tables, print_wide_view, write_tables
-
     check_tables(args.table)
     live = err_console.is_terminal and not (args.quiet or args.verbose)
     with _task_map(args) as map_tasks, _progress_bar(err_console, live, len(args.decks)) as (progress, counter):
         entries = run_series(args.decks, args.out, resume=args.resume, progress=progress, certify=args.certify,
                              map_tasks=map_tasks, counter=counter)
     files = [Path(entry.output) for entry in entries if entry.output]
-    rows = write_tables(files, args.table, args.units) if files and (args.table or not args.quiet) else ()
+    rows, codes = (), []
+    if files and (args.table or not args.quiet):
+        rows, failed = write_tables(files, args.table, args.units)
+        codes += [EXIT_OUTPUT] if failed else []  # the result files are written; only a table is missing
+    elif args.table:
+        logger.error("--table: no deck finished, so there is no table to write")
+        codes.append(EXIT_INPUT)
     if not args.quiet:
         _to_stdout(stdout, lambda console: console.print(rows_table("Series", entries, SERIES_COLUMNS)))
         if rows:
@@ -423,7 +420,7 @@ def _execute_series(args: argparse.Namespace, stdout: TextIO, err_console: "Cons
             logger.error("%s: %s", entry.deck, entry.message)
         if entry.status == "output error" and entry.result is not None:
             _to_stdout(stdout, lambda console: print_report(console, entry.result))
-    return worst_exit_code(_SERIES_EXIT[entry.status] for entry in entries)
+    return worst_exit_code([*codes, *(_SERIES_EXIT[entry.status] for entry in entries)])
 
 
 @contextlib.contextmanager
@@ -495,7 +492,7 @@ def _execute(args: argparse.Namespace, stdout: TextIO, err_console: "Console", s
         result = run_deck(deck, progress=progress, map_tasks=map_tasks)
         if args.certify:
             try:
-                result = dataclasses.replace(result, certification=certify(result, deck, progress=progress))
+                result = dataclasses.replace(result, certification=certify(result, deck, progress, map_tasks))
             except (InputError, ConvergenceError) as err:  # the results of the run itself are kept
                 logger.error("--certify: %s; the results are kept without certification", err)
                 codes.append(EXIT_INPUT if isinstance(err, InputError) else EXIT_CONVERGENCE)
@@ -506,8 +503,6 @@ def _execute(args: argparse.Namespace, stdout: TextIO, err_console: "Console", s
     if not args.quiet or failed:
         _to_stdout(stdout, lambda console: print_report(console, result))
         if args.units != "atomic":
-            from tdhf.commands import print_units_view
-
             _to_stdout(stdout, lambda console: print_units_view(console, result, args.units))
     json_written = "--json" in targets and "--json" not in failed
     codes += [EXIT_OUTPUT] if failed else []

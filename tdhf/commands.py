@@ -127,14 +127,21 @@ def check_tables(paths: Sequence[Path]) -> None:
         raise InputError("--table: the same file is given twice; give each table once")
 
 
-def write_tables(result_files: Sequence[Path], paths: Sequence[Path], units: str) -> tuple["TableRow", ...]:
-    """The long table of ``result_files`` in ``units``, written to every path; returns its rows."""
+def write_tables(result_files: Sequence[Path], paths: Sequence[Path], units: str) -> tuple[tuple["TableRow", ...], bool]:
+    """The long table of ``result_files`` in ``units``, written to every path: (its rows, whether a
+    file could not be written).  A failure is logged and the other tables are still written."""
+    from tdhf.errors import OutputError
     from tdhf.report.tables import in_units, long_table, table_text
 
     rows = in_units(long_table(result_files), units)
+    failed = False
     for path in paths:
-        _write(path, table_text(rows, path.suffix.lower()), "--table")
-    return rows
+        try:
+            _write(path, table_text(rows, path.suffix.lower()), "--table")
+        except OutputError as err:
+            logger.error("%s", err)
+            failed = True
+    return rows, failed
 
 
 def print_wide_view(console: "Console", rows: Sequence["TableRow"], columns: Sequence[str] | None) -> None:
@@ -185,10 +192,10 @@ def _table(args, to_stdout, progress, map_tasks_for) -> int:
     files, notes = result_paths(args.paths)
     for note in notes:
         logger.warning("%s", note)
-    rows = write_tables(files, args.table, args.units)
-    if not args.quiet:
+    rows, failed = write_tables(files, args.table, args.units)
+    if not args.quiet or failed:
         to_stdout(lambda console: print_wide_view(console, rows, args.columns))
-    return 0
+    return 4 if failed else 0
 
 
 def _compare(args, to_stdout, progress, map_tasks_for) -> int:
@@ -303,8 +310,7 @@ def _plot(args, to_stdout, progress, map_tasks_for) -> int:
 
     require_matplotlib()
     data = read_result(args.result)
-    frequency = None if args.frequency is None else parse_frequency(
-        float(args.frequency) if _is_number(args.frequency) else args.frequency, "--frequency")
+    frequency = None if args.frequency is None else parse_frequency(args.frequency, "--frequency")
     check_output_folder(args.out, "--out")
     formats = ("png", "svg") if args.svg else ("png",)
     written = []
@@ -318,10 +324,3 @@ def _plot(args, to_stdout, progress, map_tasks_for) -> int:
         to_stdout(lambda console: console.print("\n".join(str(path) for path in written)))
     return 0
 
-
-def _is_number(text: str) -> bool:
-    try:
-        float(text)
-    except ValueError:
-        return False
-    return True

@@ -175,9 +175,8 @@ def _user_value(row: _Row, label_column: bool) -> UserValue:
                              f" use {allowed if allowed else '1, 2 or 3'}")
         values["multipole"] = multipole
     if "frequency" in applies:
-        given = row.text("frequency")
-        value = float(given) if _is_number(given) else given or 0.0
-        values["frequency"] = parse_frequency(value, row.where("frequency"), row.text("frequency_unit") or None)
+        values["frequency"] = parse_frequency(row.text("frequency") or 0.0, row.where("frequency"),
+                                              row.text("frequency_unit") or None)
         values["imaginary"] = row.convert("imaginary", _boolean, "true or false") if row.text("imaginary") else False
     if "level" in applies:
         level = row.text("level") or "coupled"
@@ -213,14 +212,6 @@ def _user_value(row: _Row, label_column: bool) -> UserValue:
     label = row.text("label") if label_column else ""
     return UserValue(label=label or "unlabelled", system=system.name, property=prop, value=value, unit=unit,
                      line=row.line, **values)
-
-
-def _is_number(text: str) -> bool:
-    try:
-        float(text)
-    except ValueError:
-        return False
-    return True
 
 
 def read_user_values(path: str | Path) -> tuple[UserValue, ...]:

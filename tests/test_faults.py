@@ -307,7 +307,7 @@ def test_output_paths_survive_unusual_deck_names(tmp_path):
 def test_a_failing_certification_keeps_the_results_of_the_run(tmp_path, monkeypatch):
     from tdhf.errors import GridError
 
-    def refuse(result, deck, progress=None):
+    def refuse(result, deck, progress=None, map_tasks=None):
         raise GridError("grid: the refined box would need too many points")
 
     monkeypatch.setattr("tdhf.certify.certify", refuse)
