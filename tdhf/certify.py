@@ -33,7 +33,8 @@ from typing import Callable
 
 from tdhf.deck import Deck
 from tdhf.driver import Certification, RunResult, run_deck
-from tdhf.properties.dispersion import QUADRATURE_RANGE, TaskMap
+from tdhf.numerics.tasks import TaskMap
+from tdhf.properties.dispersion import QUADRATURE_RANGE
 from tdhf.quantities import Quantity, key_of, quantities
 
 __all__ = ["certify", "certified", "variations", "CERTIFICATION_TOLERANCE", "BOX_FACTOR", "UNCERTAINTY_FACTOR"]

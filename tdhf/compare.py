@@ -23,12 +23,13 @@ from __future__ import annotations
 import math
 import warnings
 from dataclasses import dataclass, field
-from typing import Any, Callable, Iterable, Sequence
+from typing import Any, Callable, Sequence
 
 from tdhf.certify import certified
 from tdhf.deck import Deck, build_deck, parse_system_name
 from tdhf.driver import ProgramInfo, program_info, run_deck
 from tdhf.errors import InputError
+from tdhf.numerics.tasks import TaskMap, serial
 from tdhf.quantities import Quantity, key_of, quantities
 from tdhf.user_values import UserValue
 
@@ -39,7 +40,6 @@ __all__ = ["ComparisonRow", "LabelSummary", "SystemReference", "Comparison", "co
 RESPONSE_PROPERTIES = ("polarizability", "polarizability_velocity_form", "dipole_shielding", "quadrupole_shielding",
                        "sum_rule", "excitation_energy", "oscillator_strength")
 
-TaskMap = Callable[[Callable[..., Any], Sequence[tuple]], Iterable[Any]]
 
 
 @dataclass(frozen=True)
@@ -255,10 +255,6 @@ def _summaries(rows: Sequence[ComparisonRow]) -> tuple[LabelSummary, ...]:
                  for rank, (label, count, largest, rms) in enumerate(ranked, start=1))
 
 
-def _serial(function: Callable[..., Any], tasks: Sequence[tuple]) -> Iterable[Any]:
-    return (function(*task) for task in tasks)
-
-
 def compare(
     values: Sequence[UserValue],
     accuracy: str = "default",
@@ -280,7 +276,7 @@ def compare(
     report = progress or (lambda stage: None)
     tasks = [(system, deck, certify) for system, deck in decks.items()]
     references: dict[str, SystemReference] = {}
-    for number, reference in enumerate((map_tasks or _serial)(compute_reference, tasks), start=1):
+    for number, reference in enumerate((map_tasks or serial)(compute_reference, tasks), start=1):
         references[reference.system] = reference
         report(f"reference {number}/{len(tasks)}: {reference.system} ({reference.status})")
     computed = {system: {key_of(q): q for q in reference.quantities} for system, reference in references.items()}

@@ -25,10 +25,10 @@ from typing import Callable
 
 from tdhf.deck import Deck, DispersionSection, ResponseSection, deck_digest, parse_system_name
 from tdhf.ground_state import GroundState, solve_ground_state
+from tdhf.numerics.tasks import TaskMap
 from tdhf.properties.dispersion import (
     DispersionCoefficients,
     ImaginaryFrequencyTable,
-    TaskMap,
     compute_dispersion,
     dispersion_pairs,
     dispersion_table,

@@ -6,7 +6,7 @@ comparison) take an optional *task map*, a callable ``map_tasks(function, tasks)
 ``function(*task)`` for each task, **in the order of the tasks** (a generator is fine).  This
 module supplies the three kinds:
 
-* :func:`serial`: one after the other, here (what the core does without a map);
+* :func:`tdhf.numerics.tasks.serial`: one after the other, here (what the core does without a map);
 * :class:`ProcessPool`: ``workers`` spawned processes on this machine (``--workers N``);
 * :class:`DaskCluster`: the workers of an existing Dask distributed scheduler
   (``--scheduler ADDRESS``, the optional extra ``[cluster]``).
@@ -29,10 +29,10 @@ from concurrent.futures import ProcessPoolExecutor
 from typing import Any, Callable, Iterator, Sequence
 
 from tdhf.errors import InputError
+from tdhf.numerics.tasks import TaskMap, serial
 
 __all__ = ["TaskMap", "serial", "ProcessPool", "DaskCluster", "task_map", "default_workers", "CLUSTER_HINT"]
 
-TaskMap = Callable[[Callable[..., Any], Sequence[tuple]], Iterator[Any]]
 CLUSTER_HINT = "pip install 'tdhf[cluster]'"
 
 
@@ -42,12 +42,6 @@ def default_workers() -> int:
         return max(len(os.sched_getaffinity(0)), 1)
     except AttributeError:  # not on Linux
         return max(os.cpu_count() or 1, 1)
-
-
-def serial(function: Callable[..., Any], tasks: Sequence[tuple]) -> Iterator[Any]:
-    """``function(*task)`` for each task, here, one after the other."""
-    for task in tasks:
-        yield function(*task)
 
 
 def _check_workers(workers: object) -> int:

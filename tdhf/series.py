@@ -31,12 +31,13 @@ import warnings
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from contextlib import ExitStack
-from typing import Any, Callable, Iterable, Sequence
+from typing import Any, Callable, Sequence
 
 from tdhf.certify import certified
 from tdhf.deck import Deck, deck_digest, load_deck
 from tdhf.driver import RunResult, program_info, run_deck
 from tdhf.errors import ConvergenceError, InputError, OutputError
+from tdhf.numerics.tasks import TaskMap, serial
 from tdhf.report.files import check_output_folder, claim, remove_stale_temporaries
 from tdhf.report.json_result import result_to_json
 from tdhf.report.serialize import write_json
@@ -71,9 +72,6 @@ class SeriesEntry:
     message: str
     warnings: tuple[str, ...] = ()
     result: RunResult | None = field(default=None, repr=False, compare=False, metadata={"json": False})
-
-
-TaskMap = Callable[[Callable[..., Any], Sequence[tuple]], Iterable[Any]]
 
 
 def run_series(
@@ -172,7 +170,7 @@ def _run_batch(decks: list[Path], outputs: list[Path], resume: bool, certify: bo
             else:
                 todo.append((k, deck))
         report(f"{len(todo)} decks to compute")
-        run = map_tasks if len(todo) > 1 else (lambda function, tasks: (function(*task) for task in tasks))
+        run = map_tasks if len(todo) > 1 else serial  # one deck: no process to start
         for (k, _), outcome in zip(todo, run(compute_deck, [(deck, certify) for _, deck in todo])):
             finished(k, _finish(decks[k], outputs[k], *outcome))
 

@@ -95,12 +95,13 @@ from __future__ import annotations
 import math
 import warnings
 from dataclasses import dataclass
-from typing import Any, Callable, Iterable, Sequence
+from typing import Callable, Sequence
 
 import numpy as np
 
 from tdhf.errors import ConvergenceError, InputError, TdhfError
 from tdhf.ground_state import GroundState
+from tdhf.numerics.tasks import TaskMap
 from tdhf.numerics.threads import single_blas_thread
 from tdhf.numerics.extrapolation import lagrange_extrapolate
 from tdhf.response.solver import FirstOrderOrbitals, ResponseSolver, ResponseTolerances
@@ -150,8 +151,6 @@ _COEFFICIENT_NAMES = ("C6", "C8", "C10")
 _RESPONSE_FAILURES = (TdhfError, np.linalg.LinAlgError, ArithmeticError)
 
 Progress = Callable[[int, int], None]
-#: ``map_tasks(function, tasks)`` -> ``function(*task)`` for each task, in task order (tdhf.execution).
-TaskMap = Callable[[Callable[..., Any], Sequence[tuple]], Iterable[Any]]
 
 
 @dataclass(frozen=True)
