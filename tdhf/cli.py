@@ -1,5 +1,6 @@
-"""Command line: ``tdhf run DECK.toml``, ``tdhf atom ELEMENT``, ``tdhf pairs A B ...`` and
-``tdhf series DECK... --out DIR`` (argument parsing and the edges: files, terminal, exit code).
+"""Command line: ``tdhf run DECK.toml``, ``tdhf atom ELEMENT``, ``tdhf pairs A B ...`` (or
+``A:B ...``), ``tdhf series DECK... --out DIR`` and, from :mod:`tdhf.commands`, ``tdhf table``,
+``tdhf compare`` and ``tdhf plot`` (argument parsing and the edges: files, terminal, exit code).
 
 Results (tables) go to stdout; warnings, progress and the log go to stderr.  ``--quiet`` prints
 nothing but errors; ``--verbose`` adds the effective options, progress and one line per SCF

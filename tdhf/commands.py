@@ -20,14 +20,15 @@ if TYPE_CHECKING:
 
     from tdhf.report.tables import TableRow
 
-__all__ = ["add_commands", "add_table_options", "add_parallel_options", "COMMANDS", "execute", "write_tables",
-           "check_tables", "print_units_view"]
+__all__ = ["add_commands", "add_table_options", "add_parallel_options", "add_units_option", "COMMANDS", "execute",
+           "write_tables", "check_tables", "print_units_view", "print_wide_view"]
 
 logger = logging.getLogger("tdhf.cli")
 
 #: The commands of this module.
 COMMANDS = ("table", "compare", "plot")
 _UNIT_SYSTEMS = ("atomic", "si", "spectroscopic")  # tdhf.units.UNIT_SYSTEMS, without importing scipy for --help
+# tdhf.user_values.COMPARABLE, likewise (tests/test_public_api.py keeps both copies equal)
 _PROPERTIES = ("total_energy", "orbital_energy", "polarizability", "polarizability_velocity_form",
                "dipole_shielding", "quadrupole_shielding", "sum_rule", "excitation_energy", "oscillator_strength",
                "C6", "C8", "C10")
@@ -229,25 +230,13 @@ def _compare(args, to_stdout, progress, map_tasks_for) -> int:
 
 def _write_comparison(result, args) -> list[str]:
     """Write the requested files; a failure is logged and named, the others are still written."""
-    import csv
-    import dataclasses
-    import io
     import json
 
     from tdhf.errors import OutputError
     from tdhf.report.serialize import to_jsonable
+    from tdhf.report.tables import csv_text
 
     failed = []
-
-    def comparison_csv() -> str:
-        stream = io.StringIO(newline="")
-        names = [f.name for f in dataclasses.fields(result.comparison[0])]
-        writer = csv.writer(stream, lineterminator="\n")
-        writer.writerow(names)
-        for row in result.comparison:
-            writer.writerow(["" if getattr(row, n) is None else repr(getattr(row, n))
-                             if isinstance(getattr(row, n), float) else getattr(row, n) for n in names])
-        return stream.getvalue()
 
     def deviation_plot() -> bytes:
         from tdhf.report.plots import deviation_figure, figure_bytes
@@ -256,7 +245,7 @@ def _write_comparison(result, args) -> list[str]:
         return figure_bytes(deviation_figure(result.comparison, caption), args.plot.suffix.lower()[1:])
 
     outputs = [(args.json, "--json", lambda: json.dumps(to_jsonable(result), indent=2, allow_nan=False) + "\n"),
-               (args.csv, "--csv", comparison_csv), (args.plot, "--plot", deviation_plot)]
+               (args.csv, "--csv", lambda: csv_text(result.comparison)), (args.plot, "--plot", deviation_plot)]
     for path, option, make in outputs:
         if path is None:
             continue

@@ -67,3 +67,13 @@ def test_the_command_line_imports_no_numerics_until_a_command_runs():
     probe = "import sys, tdhf.cli; print(sorted(m for m in ('numpy', 'scipy', 'rich', 'tdhf.deck') if m in sys.modules))"
     loaded = subprocess.run([sys.executable, "-c", probe], capture_output=True, text=True, check=True).stdout
     assert loaded.strip() == "[]"
+
+
+def test_the_command_lines_copies_of_the_choices_match_the_library():
+    """Common practice, no source: tdhf.commands repeats two lists so that --help imports no numerics."""
+    from tdhf import commands
+    from tdhf.units import UNIT_SYSTEMS
+    from tdhf.user_values import COMPARABLE
+
+    assert commands._UNIT_SYSTEMS == UNIT_SYSTEMS
+    assert commands._PROPERTIES == tuple(COMPARABLE)

@@ -44,7 +44,7 @@ from tdhf.report.terminal import MISSING, format_value, new_table
 from tdhf.units import display_unit, frequency_unit
 
 __all__ = ["TableRow", "LONG_COLUMNS", "TABLE_FORMATS", "WIDE_PROPERTIES", "read_result", "result_paths",
-           "long_table", "in_units", "table_text", "wide_table", "check_table_path"]
+           "long_table", "in_units", "table_text", "wide_table", "check_table_path", "csv_cell", "csv_text"]
 
 #: Properties shown by default in the wide terminal view.
 WIDE_PROPERTIES = ("total_energy", "polarizability", "C6")
@@ -234,10 +234,11 @@ def check_table_path(path: str | Path) -> str:
 
 def table_text(rows: Sequence[TableRow], suffix: str) -> str:
     """The text of the long table in the format of ``suffix`` (".csv", ".md" or ".tex")."""
-    return {".csv": _csv_text, ".md": _markdown_text, ".tex": _latex_text}[check_table_path(f"x{suffix}")](rows)
+    return {".csv": csv_text, ".md": _markdown_text, ".tex": _latex_text}[check_table_path(f"x{suffix}")](rows)
 
 
-def _csv_cell(value: Any) -> str:
+def csv_cell(value: Any) -> str:
+    """A CSV cell: empty for None (and non-finite floats), true/false, floats by repr (bit-exact)."""
     if value is None:
         return ""
     if isinstance(value, bool):
@@ -247,12 +248,14 @@ def _csv_cell(value: Any) -> str:
     return str(value)
 
 
-def _csv_text(rows: Sequence[TableRow]) -> str:
+def csv_text(rows: Sequence[Any]) -> str:
+    """CSV of dataclass rows: a header of their field names, one line per row (:func:`csv_cell`)."""
+    names = [f.name for f in fields(rows[0])] if rows else list(LONG_COLUMNS)
     stream = io.StringIO(newline="")
     writer = csv.writer(stream, lineterminator="\n")
-    writer.writerow(LONG_COLUMNS)
+    writer.writerow(names)
     for row in rows:
-        writer.writerow([_csv_cell(getattr(row, name)) for name in LONG_COLUMNS])
+        writer.writerow([csv_cell(getattr(row, name)) for name in names])
     return stream.getvalue()
 
 
