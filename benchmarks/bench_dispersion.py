@@ -27,6 +27,7 @@ import platform
 import sys
 import time
 
+from tdhf.execution import task_map
 from tdhf.ground_state import solve_ground_state
 from tdhf.properties.dispersion import DEFAULT_QUADRATURE_POINTS, companion_points, dispersion_table
 from tdhf.system import System
@@ -60,7 +61,9 @@ def main(argv: list[str] | None = None) -> int:
     def progress(done: int, total: int) -> None:
         marks.append((done, time.perf_counter()))
 
-    results = dispersion_table(states, args.points, progress=progress, workers=args.workers)
+    with task_map(args.workers) as map_tasks:
+        results = dispersion_table(states, args.points, progress=progress,
+                                   map_tasks=None if args.workers == 1 else map_tasks)
     end = time.perf_counter()
 
     print(f"{'pair':<8} {'C6 (Eh a0^6)':>16} {'C8 (Eh a0^8)':>16} {'C10 (Eh a0^10)':>18} {'max rel err':>11}  conv")

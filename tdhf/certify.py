@@ -33,6 +33,7 @@ from typing import Callable
 
 from tdhf.deck import Deck
 from tdhf.driver import Certification, RunResult, run_deck
+from tdhf.numerics.tasks import TaskMap
 from tdhf.properties.dispersion import QUADRATURE_RANGE
 from tdhf.quantities import Quantity, key_of, quantities
 
@@ -69,13 +70,13 @@ def variations(deck: Deck, result: RunResult) -> dict[str, Deck]:
 
 
 def certify(
-    result: RunResult, deck: Deck, progress: Callable[[str], None] | None = None
+    result: RunResult, deck: Deck, progress: Callable[[str], None] | None = None, map_tasks: TaskMap | None = None
 ) -> tuple[Certification, ...]:
     """Rerun ``deck`` once per approximation (:func:`variations`) and bound every number of ``result``.
 
     Returns one row per number (JSON key path, value, the most different variation's value, the
     difference, which approximation it was).  A warning names the numbers whose relative change
-    exceeds CERTIFICATION_TOLERANCE.
+    exceeds CERTIFICATION_TOLERANCE.  ``map_tasks`` is passed to each rerun (:func:`run_deck`).
     """
     report = progress or (lambda stage: None)
     base = quantities(result)
@@ -84,7 +85,7 @@ def certify(
         report(f"certificate: {name} variation")
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)  # the same notes were given for the main run
-            other = run_deck(varied_deck)
+            other = run_deck(varied_deck, map_tasks=map_tasks)
         varied[name] = {key_of(q): q for q in quantities(other)}
     quadrature_errors = {(row.pair, order): error for row in result.dispersion
                          for order, error in (("C6", row.C6_error), ("C8", row.C8_error), ("C10", row.C10_error))}
@@ -124,6 +125,7 @@ def _certify_one(quantity: Quantity, varied: dict[str, dict[tuple, Quantity]], q
                          UNCERTAINTY_FACTOR * abs(difference))
 
 
-def certified(result: RunResult, deck: Deck, progress: Callable[[str], None] | None = None) -> RunResult:
+def certified(result: RunResult, deck: Deck, progress: Callable[[str], None] | None = None,
+              map_tasks: TaskMap | None = None) -> RunResult:
     """``result`` with its certificate attached."""
-    return dataclasses.replace(result, certification=certify(result, deck, progress))
+    return dataclasses.replace(result, certification=certify(result, deck, progress, map_tasks))

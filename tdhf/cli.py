@@ -1,5 +1,6 @@
-"""Command line: ``tdhf run DECK.toml``, ``tdhf atom ELEMENT``, ``tdhf pairs A B ...`` and
-``tdhf series DECK... --out DIR`` (argument parsing and the edges: files, terminal, exit code).
+"""Command line: ``tdhf run DECK.toml``, ``tdhf atom ELEMENT``, ``tdhf pairs A B ...`` (or
+``A:B ...``), ``tdhf series DECK... --out DIR`` and, from :mod:`tdhf.commands`, ``tdhf table``,
+``tdhf compare`` and ``tdhf plot`` (argument parsing and the edges: files, terminal, exit code).
 
 Results (tables) go to stdout; warnings, progress and the log go to stderr.  ``--quiet`` prints
 nothing but errors; ``--verbose`` adds the effective options, progress and one line per SCF
@@ -35,6 +36,8 @@ import warnings
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Iterable, Iterator, Sequence, TextIO
 
+from tdhf.commands import COMMANDS, add_commands, add_parallel_options, add_table_options, add_units_option, \
+    check_tables, execute, print_units_view, print_wide_view, write_tables
 from tdhf.errors import ConvergenceError, InputError, OutputError
 
 if TYPE_CHECKING:
@@ -121,30 +124,42 @@ def build_parser() -> argparse.ArgumentParser:
     atom.add_argument("--tight", action="store_true", help="use the tight grid preset")
     atom.add_argument("--multipoles", type=int, nargs="+", metavar="L",
                       help="response multipole orders (1 dipole, 2 quadrupole, 3 octupole)")
-    atom.add_argument("--frequencies", type=float, nargs="+", metavar="W",
-                      help="real response frequencies, hartree")
-    atom.add_argument("--imaginary", type=float, nargs="+", metavar="W",
-                      help="imaginary response frequencies, hartree")
+    atom.add_argument("--frequencies", nargs="+", metavar="W",
+                      help='real response frequencies, hartree or with a unit ("1064 nm", "2.5 eV")')
+    atom.add_argument("--imaginary", nargs="+", metavar="W",
+                      help="imaginary response frequencies, hartree or with a unit")
     atom.add_argument("--excitations", type=int, metavar="N",
                       help="list the N lowest bound lines of each multipole")
 
     pairs = commands.add_parser("pairs", parents=[common], help="C6, C8, C10 for every pair of a list of systems",
-                                description="Dispersion coefficients of all pairs (like pairs included).")
-    pairs.add_argument("systems", metavar="SYSTEM", nargs="+", help='systems such as "He", "Na+", "Cl-"')
+                                description="Dispersion coefficients of all pairs of the systems (like pairs"
+                                            " included), or of the pairs A:B given.")
+    pairs.add_argument("systems", metavar="SYSTEM", nargs="+",
+                       help='systems such as "He", "Na+", "Cl-" (every pair), or pairs such as "He:Ne" (just those)')
     pairs.add_argument("--points", type=int, help="imaginary-frequency quadrature points (default 24)")
     pairs.add_argument("--tight", action="store_true", help="use the tight grid preset")
+    add_parallel_options(pairs, "atoms of the pair table")
     series = commands.add_parser("series", help="run many decks, one JSON file each (resumable)",
                                  description="Run a series of decks; failures stay with their deck.")
     series.add_argument("decks", metavar="DECK.toml", type=Path, nargs="+")
     series.add_argument("--out", metavar="DIR", type=Path, required=True, help="directory for the JSON results")
     series.add_argument("--resume", action="store_true",
                         help="keep result files that are complete and current (same deck, same version)")
-    series_talk = series.add_mutually_exclusive_group()
-    series_talk.add_argument("-v", "--verbose", action="store_true", help="show progress on stderr")
-    series_talk.add_argument("-q", "--quiet", action="store_true", help="print nothing but errors")
+    series.add_argument("--certify", action="store_true",
+                        help="certify every result (3-4 extra runs per deck; tables then show certified digits)")
+    add_table_options(series)
+    add_parallel_options(series, "decks")
+    talk_only = argparse.ArgumentParser(add_help=False)
+    for parent in (series, talk_only):
+        group = parent.add_mutually_exclusive_group()
+        group.add_argument("-v", "--verbose", action="store_true", help="show progress on stderr")
+        group.add_argument("-q", "--quiet", action="store_true", help="print nothing but errors")
     for command in (run, pairs):
         command.add_argument("--csv", metavar="ALPHA.csv", type=Path,
                              help="also write alpha_L(i w) on the dispersion quadrature grid as CSV")
+    for command in (run, atom, pairs):
+        add_units_option(command)
+    add_commands(commands, talk_only)
     return parser
 
 
@@ -155,9 +170,13 @@ def _deck_from_arguments(args: argparse.Namespace) -> "Deck":
     if args.command == "run":
         return load_deck(args.deck)
     if args.command == "pairs":
-        element, charge = parse_system_name(args.systems[0], "systems[0]")
-        data: dict[str, Any] = {"atom": {"element": element, "charge": charge},
-                                "dispersion": {"systems": args.systems[1:] or args.systems[:1]}}
+        explicit = [":" in name for name in args.systems]
+        if any(explicit) and not all(explicit):
+            raise InputError("pairs: give either systems (every pair among them) or pairs such as He:Ne, not both")
+        first = args.systems[0].split(":")[0]
+        element, charge = parse_system_name(first, "systems[0]")
+        table = {"pairs": args.systems} if all(explicit) else {"systems": args.systems[1:] or args.systems[:1]}
+        data: dict[str, Any] = {"atom": {"element": element, "charge": charge}, "dispersion": table}
         if args.points is not None:
             data["dispersion"]["quadrature_points"] = args.points
         if args.tight:
@@ -378,10 +397,23 @@ def _execute_series(args: argparse.Namespace, stdout: TextIO, err_console: "Cons
     from tdhf.report.terminal import SERIES_COLUMNS, print_report, rows_table
     from tdhf.series import run_series
 
-    with _progress(err_console, live=err_console.is_terminal and not (args.quiet or args.verbose)) as progress:
-        entries = run_series(args.decks, args.out, resume=args.resume, progress=progress)
+    check_tables(args.table)
+    live = err_console.is_terminal and not (args.quiet or args.verbose)
+    with _task_map(args) as map_tasks, _progress_bar(err_console, live, len(args.decks)) as (progress, counter):
+        entries = run_series(args.decks, args.out, resume=args.resume, progress=progress, certify=args.certify,
+                             map_tasks=map_tasks, counter=counter)
+    files = [Path(entry.output) for entry in entries if entry.output]
+    rows, codes = (), []
+    if files and (args.table or not args.quiet):
+        rows, failed = write_tables(files, args.table, args.units)
+        codes += [EXIT_OUTPUT] if failed else []  # the result files are written; only a table is missing
+    elif args.table:
+        logger.error("--table: no deck finished, so there is no table to write")
+        codes.append(EXIT_INPUT)
     if not args.quiet:
         _to_stdout(stdout, lambda console: console.print(rows_table("Series", entries, SERIES_COLUMNS)))
+        if rows:
+            _to_stdout(stdout, lambda console: print_wide_view(console, rows, args.columns))
     for entry in entries:
         for note in entry.warnings:
             logger.warning("%s: %s", entry.deck, note)
@@ -389,7 +421,36 @@ def _execute_series(args: argparse.Namespace, stdout: TextIO, err_console: "Cons
             logger.error("%s: %s", entry.deck, entry.message)
         if entry.status == "output error" and entry.result is not None:
             _to_stdout(stdout, lambda console: print_report(console, entry.result))
-    return worst_exit_code(_SERIES_EXIT[entry.status] for entry in entries)
+    return worst_exit_code([*codes, *(_SERIES_EXIT[entry.status] for entry in entries)])
+
+
+@contextlib.contextmanager
+def _task_map(args: argparse.Namespace) -> Iterator[Any]:
+    """The task map of --workers/--scheduler (tdhf.execution); None for one worker (no pool)."""
+    from tdhf.execution import serial, task_map
+
+    if not hasattr(args, "workers"):  # a command without the options runs here
+        yield None
+        return
+    with task_map(args.workers, args.scheduler) as map_tasks:
+        yield None if map_tasks is serial else map_tasks
+
+
+@contextlib.contextmanager
+def _progress_bar(console: "Console", live: bool, total: int) -> Iterator[tuple[Any, Any]]:
+    """(stage callback, counter(done, total)): a bar with the time left on a terminal, else log lines."""
+    if not live:
+        yield (lambda stage: logger.info("%s ...", stage)), (lambda done, total: logger.info("%d/%d done", done, total))
+        return
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn, \
+        TimeRemainingColumn
+
+    columns = (TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),
+               TextColumn("left"), TimeRemainingColumn())
+    with Progress(*columns, console=console, transient=True) as bar:
+        task = bar.add_task("starting", total=total)
+        yield (lambda stage: bar.update(task, description=stage)), \
+            (lambda done, total: bar.update(task, completed=done, total=total))
 
 
 def _write_outputs(result: Any, targets: dict[str, "OutputTarget"]) -> list[str]:
@@ -413,6 +474,9 @@ def _write_outputs(result: Any, targets: dict[str, "OutputTarget"]) -> list[str]
 def _execute(args: argparse.Namespace, stdout: TextIO, err_console: "Console", shown: set[str]) -> int:
     if args.command == "series":
         return _execute_series(args, stdout, err_console)
+    if args.command in COMMANDS:
+        with _progress(err_console, live=err_console.is_terminal and not (args.quiet or args.verbose)) as progress:
+            return execute(args, lambda draw: _to_stdout(stdout, draw), progress, _task_map)
     deck = _deck_from_arguments(args)
     targets = _check_outputs(args, deck)
     if args.certify:
@@ -424,11 +488,12 @@ def _execute(args: argparse.Namespace, stdout: TextIO, err_console: "Console", s
     from tdhf.report.terminal import print_report
 
     codes = []
-    with _progress(err_console, live=err_console.is_terminal and not (args.quiet or args.verbose)) as progress:
-        result = run_deck(deck, progress=progress)
+    live = err_console.is_terminal and not (args.quiet or args.verbose)
+    with _task_map(args) as map_tasks, _progress(err_console, live=live) as progress:
+        result = run_deck(deck, progress=progress, map_tasks=map_tasks)
         if args.certify:
             try:
-                result = dataclasses.replace(result, certification=certify(result, deck, progress=progress))
+                result = dataclasses.replace(result, certification=certify(result, deck, progress, map_tasks))
             except (InputError, ConvergenceError) as err:  # the results of the run itself are kept
                 logger.error("--certify: %s; the results are kept without certification", err)
                 codes.append(EXIT_INPUT if isinstance(err, InputError) else EXIT_CONVERGENCE)
@@ -438,6 +503,8 @@ def _execute(args: argparse.Namespace, stdout: TextIO, err_console: "Console", s
     failed = _write_outputs(result, targets)
     if not args.quiet or failed:
         _to_stdout(stdout, lambda console: print_report(console, result))
+        if args.units != "atomic":
+            _to_stdout(stdout, lambda console: print_units_view(console, result, args.units))
     json_written = "--json" in targets and "--json" not in failed
     codes += [EXIT_OUTPUT] if failed else []
     if result.rejected:

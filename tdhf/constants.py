@@ -20,6 +20,10 @@ __all__ = [
     "BOHR_ANGSTROM",
     "POLARIZABILITY_SI",
     "POLARIZABILITY_ANGSTROM3",
+    "HARTREE_J",
+    "BOHR_M",
+    "HARTREE_INVERSE_METER",
+    "HARTREE_HERTZ",
     "hartree_to_ev",
     "CODATA_KEYS",
 ]
@@ -29,10 +33,25 @@ CODATA_KEYS = {
     "hartree_ev": "Hartree energy in eV",
     "bohr_m": "Bohr radius",
     "polarizability_si": "atomic unit of electric polarizability",
+    "hartree_j": "Hartree energy",
+    "hartree_inverse_meter": "hartree-inverse meter relationship",
+    "hartree_hertz": "hartree-hertz relationship",
 }
 
 #: One hartree in electronvolt.
 HARTREE_EV: float = physical_constants[CODATA_KEYS["hartree_ev"]][0]
+
+#: One hartree in joule.
+HARTREE_J: float = physical_constants[CODATA_KEYS["hartree_j"]][0]
+
+#: One bohr in metre.
+BOHR_M: float = physical_constants[CODATA_KEYS["bohr_m"]][0]
+
+#: The wavenumber of one hartree, m^-1 (a photon of energy E has wavelength 1 / (E x this)).
+HARTREE_INVERSE_METER: float = physical_constants[CODATA_KEYS["hartree_inverse_meter"]][0]
+
+#: The frequency E/h of one hartree, Hz.
+HARTREE_HERTZ: float = physical_constants[CODATA_KEYS["hartree_hertz"]][0]
 
 #: One bohr in angstrom.
 BOHR_ANGSTROM: float = physical_constants[CODATA_KEYS["bohr_m"]][0] * 1e10

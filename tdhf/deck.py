@@ -26,7 +26,7 @@ A deck has one table per part of the calculation; only ``[atom]`` is required::
 
     [response]                     # optional: linear response (tdhf.response)
     multipoles = [1, 2]            # L = 1 dipole, 2 quadrupole, 3 octupole
-    frequencies = [0.0, 0.1]       # real frequencies, hartree
+    frequencies = [0.0, 0.1]       # real frequencies, hartree (or with a unit: "1064 nm", "2.5 eV")
     imaginary_frequencies = [0.5]  # imaginary frequencies, hartree
     coupled = true                 # also solve the coupled (TDHF) equations, not only uncoupled
     broadening = 0.0               # eta > 0: complex frequencies omega + i eta (a broadened spectrum)
@@ -35,6 +35,7 @@ A deck has one table per part of the calculation; only ``[atom]`` is required::
     [dispersion]                   # optional: dispersion coefficients with partner systems
     partners = ["He", "Na+"]       # each paired with the [atom] system
     # systems = ["Ne", "Ar"]       # instead: every pair among [atom] and these (a series table)
+    # pairs = ["He:Ne", "Ar:Kr"]   # or: exactly these pairs
     quadrature_points = 24         # points of the imaginary-frequency quadrature, 8..96
 
 A deck is data only: it names no files and no programs, so reading it never reaches outside the
@@ -79,6 +80,7 @@ from tdhf.radial.mesh import GridSettings, check_grid_size
 from tdhf.response.solver import ResponseTolerances
 from tdhf.scf import ScfSettings
 from tdhf.system import System
+from tdhf.units import parse_frequency
 from tdhf.properties.dispersion import DEFAULT_QUADRATURE_POINTS, QUADRATURE_RANGE
 
 __all__ = [
@@ -131,7 +133,21 @@ class AtomSection:
 
 @dataclass(frozen=True)
 class ResponseSection:
-    """``[response]``: multipole orders and frequencies (hartree) of the linear response."""
+    """``[response]``: multipole orders and frequencies (hartree) of the linear response.
+
+    Attributes
+    ----------
+    multipoles : tuple of int
+        L = 1 (dipole), 2 (quadrupole), 3 (octupole).
+    frequencies, imaginary_frequencies : tuple of float
+        Real omega and imaginary nu (omega = i nu), hartree (read with units at the edge).
+    coupled : bool
+        Solve the coupled (TDHF) equations, not only the uncoupled ones.
+    broadening : float
+        eta, hartree: real frequencies become omega + i eta.
+    excitations : int
+        Lowest bound lines listed per multipole.
+    """
 
     multipoles: tuple[int, ...] = (1,)
     frequencies: tuple[float, ...] = (0.0,)
@@ -147,11 +163,21 @@ class DispersionSection:
 
     ``partners``: each is paired with the ``[atom]`` system.  ``systems``: a series; every
     unordered pair among ``[atom]`` and these systems (like pairs included) is computed.
+    ``pairs``: exactly these pairs, each written "A:B" (e.g. "He:Ne"); [atom] need not be in one.
+    ``quadrature_points``: the base rule size n of the imaginary-frequency quadrature (the
+    reported values use n + n//2 nodes, :mod:`tdhf.properties.dispersion`).
     """
 
     partners: tuple[str, ...] = ()
     systems: tuple[str, ...] = ()
     quadrature_points: int = DEFAULT_QUADRATURE_POINTS
+    pairs: tuple[str, ...] = ()
+
+    @property
+    def names(self) -> tuple[str, ...]:
+        """Every system named by partners, systems or pairs, once each, in order."""
+        return tuple(dict.fromkeys(self.partners + self.systems + tuple(
+            name for pair in self.pairs for name in pair.split(":"))))
 
 
 @dataclass(frozen=True)
@@ -275,7 +301,7 @@ def _check_grids(atom: AtomSection, grid: GridSettings, dispersion: DispersionSe
     state enlarges later is checked again before it is built.
     """
     systems = [atom.to_system()]
-    for name in (dispersion.partners or dispersion.systems) if dispersion else ():
+    for name in dispersion.names if dispersion else ():
         systems.append(System.from_input(*parse_system_name(name)))
     for system in systems:
         check_grid_size(grid, system.Z, starting_box(system, grid))
@@ -357,7 +383,13 @@ def _response(table: Mapping[str, Any]) -> ResponseSection:
 def _frequencies(path: str, value: Any) -> tuple[float, ...]:
     numbers = []
     for i, item in enumerate(_array(path, value, allow_empty=True, longest=MAX_FREQUENCIES)):
-        number = _number(f"{path}[{i}]", item)
+        if isinstance(item, str):  # "1064 nm", "2.5 eV": tdhf.units
+            try:
+                number = parse_frequency(item, f"{path}[{i}]")
+            except InputError as err:
+                raise FrequencyError(str(err)) from None
+        else:
+            number = _number(f"{path}[{i}]", item)
         if number < 0.0:
             raise FrequencyError(f"{path}[{i}]: {number!r} is negative; frequencies are in hartree and must be >= 0")
         if number > MAX_FREQUENCY:
@@ -369,28 +401,41 @@ def _frequencies(path: str, value: Any) -> tuple[float, ...]:
 
 def _dispersion(table: Mapping[str, Any]) -> DispersionSection:
     _check_keys("dispersion", table, _field_names(DispersionSection))
-    given = [key for key in ("partners", "systems") if key in table]
+    given = [key for key in ("partners", "systems", "pairs") if key in table]
     if len(given) != 1:
         raise DeckError(
-            'dispersion: give either partners (pairs with [atom], e.g. partners = ["He", "Na+"]) or systems'
-            ' (all pairs of a series, e.g. systems = ["Ne", "Ar", "Kr"])'
-            + ("" if given else "; neither is present")
+            'dispersion: give one of partners (pairs with [atom], e.g. partners = ["He", "Na+"]), systems'
+            ' (all pairs of a series, e.g. systems = ["Ne", "Ar", "Kr"]) or pairs (e.g. pairs = ["He:Ne"])'
+            + ("" if given else "; none is present")
         )
     key = given[0]
     names = []
     for i, item in enumerate(_array(f"dispersion.{key}", table[key], allow_empty=False, longest=MAX_SYSTEMS)):
         path = f"dispersion.{key}[{i}]"
-        name = _string(path, item)
-        element, charge = parse_system_name(name, path)
-        try:
-            names.append(System.from_input(element, charge).name)  # canonical: "na1+" -> "Na+"
-        except InputError as err:
-            raise type(err)(_partner_message(path, name, str(err))) from None
+        text = _string(path, item)
+        parts = text.split(":") if key == "pairs" else [text]
+        if len(parts) != (2 if key == "pairs" else 1):
+            raise DeckError(f'{path}: {text!r} is not a pair; write two systems joined by ":", e.g. "He:Ne"')
+        names.append(":".join(_canonical_name(path, part) for part in parts))
+    if key == "pairs":
+        for i, pair in enumerate(names):
+            first, second = pair.split(":")
+            if f"{second}:{first}" in names[:i]:
+                raise DeckError(f"dispersion.pairs[{i}]: {pair!r} repeats {second}:{first}; give each pair once")
     low, high = QUADRATURE_RANGE
     points = _integer("dispersion.quadrature_points", table.get("quadrature_points", DEFAULT_QUADRATURE_POINTS))
     _in_range("dispersion.quadrature_points", points, low, high,
               "it is the number of points of the imaginary-frequency quadrature")
     return DispersionSection(**{key: _unique(f"dispersion.{key}", names)}, quadrature_points=points)
+
+
+def _canonical_name(path: str, name: str) -> str:
+    """A checked closed-shell system name in canonical form ("na1+" -> "Na+")."""
+    element, charge = parse_system_name(name.strip(), path)
+    try:
+        return System.from_input(element, charge).name
+    except InputError as err:
+        raise type(err)(_partner_message(path, name, str(err))) from None
 
 
 _ATOM_KEY = re.compile(r"^atom\.\w+: ")

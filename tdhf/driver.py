@@ -24,10 +24,12 @@ from typing import Callable
 
 from tdhf.deck import Deck, DispersionSection, ResponseSection, deck_digest, parse_system_name
 from tdhf.ground_state import GroundState, solve_ground_state
+from tdhf.numerics.tasks import TaskMap
 from tdhf.properties.dispersion import (
     DispersionCoefficients,
     ImaginaryFrequencyTable,
     compute_dispersion,
+    dispersion_pairs,
     dispersion_table,
 )
 from tdhf.properties.polarizability import DipoleShielding, Polarizability, QuadrupoleShielding
@@ -55,7 +57,25 @@ Progress = Callable[[str], None]
 
 @dataclass(frozen=True)
 class Conventions:
-    """The units and normalizations of every number in a result, written into the JSON."""
+    """The units and normalizations of every number in a result, written into the JSON.
+
+    Attributes
+    ----------
+    units : str
+        Atomic units of every number.
+    polarizability : str
+        The normalization of alpha_L.
+    dipole_shielding, quadrupole_shielding : str
+        What beta and gamma_inf are.
+    oscillator_strength : str
+        The definition of f and its sum rule.
+    uncoupled : str
+        What the uncoupled numbers are.
+    dispersion : str
+        The Casimir-Polder formulas of C6, C8, C10.
+    uncertainty : str
+        What ``<key>_uncertainty`` and ``certification`` mean.
+    """
 
     units: str = "atomic units: hartree, bohr; alpha_L in bohr^(2L+1); C_n in hartree bohr^n"
     polarizability: str = NORMALIZATION
@@ -81,6 +101,17 @@ class RunSettings:
     """Every effective option of a run (defaults filled in), stored with the results.
 
     ``deck_digest`` is :func:`tdhf.deck.deck_digest` of the deck (resume checks it).
+
+    Attributes
+    ----------
+    accuracy : str
+        The accuracy preset ("default" or "tight") the other settings started from.
+    grid, scf, tolerances : GridSettings, ScfSettings, ResponseTolerances
+        Radial grid, SCF and response-solver settings.
+    response, dispersion : ResponseSection, DispersionSection or None
+        The deck's [response] and [dispersion] tables with defaults filled in (None if absent).
+    schema : int
+        The deck format version.
     """
 
     accuracy: str
@@ -102,7 +133,7 @@ class Certification:
     "tolerances" or "quadrature"), ``difference`` = refined - value.  ``uncertainty`` =
     :data:`tdhf.certify.UNCERTAINTY_FACTOR` x |difference|: it covers the error of ``value`` when
     every variation at least halves the error of its approximation.  ``converged`` is False if
-    the number or a variation did not converge.
+    the number or a variation did not converge; ``relative_difference`` = |difference| / |value|.
     """
 
     quantity: str
@@ -128,7 +159,9 @@ class RunResult:
     polarizabilities, shielding, quadrupole_shielding, sum_rules, excitations, strength_distribution : tuple
         Rows from :func:`tdhf.properties.response_properties.compute_response` (empty without ``[response]``).
     dispersion : tuple of DispersionCoefficients
-        One row per pair (empty without ``[dispersion]``); ``polarizability_tables`` the alpha_L(i w) tables.
+        One row per pair (empty without ``[dispersion]``).
+    polarizability_tables : tuple of ImaginaryFrequencyTable
+        alpha_L(i w) of each system of the pairs on the quadrature nodes, and its static alpha_L(0).
     certification : tuple of Certification
         Empty unless the run was certified.
     warnings : tuple of str
@@ -138,8 +171,12 @@ class RunResult:
     settings : RunSettings
         The effective options.
     program : ProgramInfo
+        The program and version that made the result.
+    conventions : Conventions
+        Units and normalizations of every number, in words.
     partner_ground_states : tuple of GroundState
-        Ground states of the dispersion partners (not written to JSON).
+        Ground states of every system of the dispersion pairs, in the order of the deck (the
+        atom's own among them if it is paired); absent from JSON without [dispersion].
     """
 
     atom: System
@@ -158,7 +195,7 @@ class RunResult:
     settings: RunSettings
     program: ProgramInfo = field(default_factory=program_info)
     conventions: Conventions = field(default_factory=Conventions)
-    partner_ground_states: tuple[GroundState, ...] = field(default=(), repr=False, metadata={"json": False})
+    partner_ground_states: tuple[GroundState, ...] = field(default=(), repr=False)
 
     @property
     def converged(self) -> bool:
@@ -194,7 +231,7 @@ class RunResult:
         return {row.quantity: row.uncertainty for row in self.certification}
 
 
-def run_deck(deck: Deck, progress: Progress | None = None) -> RunResult:
+def run_deck(deck: Deck, progress: Progress | None = None, map_tasks: TaskMap | None = None) -> RunResult:
     """Compute everything a deck asks for.
 
     Parameters
@@ -203,6 +240,9 @@ def run_deck(deck: Deck, progress: Progress | None = None) -> RunResult:
         A validated deck (:func:`tdhf.deck.load_deck`).
     progress : callable, optional
         Called with a short description (e.g. ``"ground state of Ne"``) as each stage starts.
+    map_tasks : callable, optional
+        Where the independent responses of a dispersion table run (:mod:`tdhf.execution`);
+        by default here.  The numbers are the same either way.
 
     Returns
     -------
@@ -239,7 +279,7 @@ def run_deck(deck: Deck, progress: Progress | None = None) -> RunResult:
             notes += library_notes
             own_notes += driver_notes
         if deck.dispersion is not None:
-            dispersion_fields, library_notes = _run_dispersion(ground_state, deck.dispersion, deck, report)
+            dispersion_fields, library_notes = _run_dispersion(ground_state, deck.dispersion, deck, report, map_tasks)
             fields |= dispersion_fields
             notes += library_notes
     for note in own_notes:
@@ -273,13 +313,14 @@ def _run_dispersion(
     section: DispersionSection,
     deck: Deck,
     report: Progress,
+    map_tasks: TaskMap | None = None,
 ) -> tuple[dict[str, tuple], tuple[str, ...]]:
     """Dispersion rows, alpha(i w) tables and partner ground states by RunResult field, and the notes.
 
     Each other system is solved with the deck's grid and SCF settings (the atom's own ground state
     is reused).  A system whose ground state or response fails only marks its own pairs.
     """
-    names = section.partners or section.systems
+    names = section.names
     others = []
     for name in names:
         system = System.from_input(*parse_system_name(name))
@@ -295,11 +336,16 @@ def _run_dispersion(
 
     if section.partners:
         results = compute_dispersion(ground_state, tuple(others), quadrature_points=section.quadrature_points,
-                                     tolerances=deck.tolerances)
+                                     tolerances=deck.tolerances, map_tasks=map_tasks)
+    elif section.pairs:
+        index = {name: k for k, name in enumerate(names)}
+        pairs = [tuple(index[name] for name in pair.split(":")) for pair in section.pairs]
+        results = dispersion_pairs(others, pairs, quadrature_points=section.quadrature_points, progress=count,
+                                   tolerances=deck.tolerances, map_tasks=map_tasks)
     else:
         series = [ground_state] + [state for state in others if state is not ground_state]
         results = dispersion_table(series, quadrature_points=section.quadrature_points, progress=count,
-                                   tolerances=deck.tolerances)
+                                   tolerances=deck.tolerances, map_tasks=map_tasks)
     fields = {
         "dispersion": tuple(results.coefficients),
         "polarizability_tables": tuple(results.polarizability_tables),

@@ -37,6 +37,19 @@ class OrbitalResult:
     """One occupied subshell: energy and radial moments (atomic units).
 
     ``mean_r`` etc. are :math:`\\langle r^k \\rangle = \\int P(r)^2 r^k dr` per electron.
+
+    Attributes
+    ----------
+    label : str
+        Subshell, e.g. "2p".
+    n, l : int
+        Principal and orbital angular momentum quantum numbers.
+    occupation : int
+        Electrons in the subshell, 2(2l+1).
+    energy : float
+        Orbital energy epsilon, hartree (-epsilon_HOMO is the Koopmans ionization energy).
+    mean_inverse_r_squared, mean_inverse_r, mean_r, mean_r_squared : float
+        <r^-2>, <r^-1>, <r>, <r^2> per electron, bohr^k.
     """
 
     label: str
@@ -61,6 +74,35 @@ class GroundState:
     :math:`-\\rho'(0) / (2 Z \\rho(0))`, 1 by Kato's theorem; without an occupied s orbital
     :math:`\\rho(0) = 0` exactly (P ~ r^(l+1)), the theorem says nothing and ``cusp_ratio`` is None.
     ``scf_message`` says what stopped the SCF (:attr:`tdhf.scf.ScfSolution.message`).
+
+    Attributes
+    ----------
+    system : System
+        The atom or ion.
+    converged : bool
+        The SCF reached its tolerances (else the numbers are flagged and nothing is built on them).
+    total_energy : float
+        The Hartree-Fock total energy, hartree.
+    orbitals : tuple of OrbitalResult
+        One per occupied subshell.
+    mean_inverse_r_squared, mean_inverse_r, mean_r, mean_r_squared : float
+        <r^-2>, <r^-1>, <r>, <r^2> summed over all electrons, bohr^k.
+    iterations : int
+        SCF iterations used.
+    orbital_change, energy_change : float
+        The last iteration's largest orbital change and energy change (hartree).
+    scf_strategy : str
+        The accelerator that finished ("diis" or the damped fallback).
+    r_max : float
+        Box radius, bohr (the automatic box grows until the outermost orbital has decayed).
+    grid_points : int
+        Radial grid points.
+    box_decay : float
+        kappa R of the outermost orbital (at least BOX_DECAY = 34 in an automatic box).
+    warnings : tuple of str
+        One-line notes (box too small, not converged, unbound in HF ...).
+    grid_settings, scf_settings : GridSettings, ScfSettings
+        The settings it was solved with.
     """
 
     system: System

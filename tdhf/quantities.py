@@ -28,12 +28,46 @@ from typing import Iterator
 
 from tdhf.driver import RunResult
 
-__all__ = ["Quantity", "quantities", "key_of", "multipole_unit"]
+__all__ = ["Quantity", "quantities", "key_of", "multipole_unit", "property_unit"]
 
 
 @dataclass(frozen=True)
 class Quantity:
-    """One reported number with everything that identifies it (see the module docstring)."""
+    """One reported number with everything that identifies it (see the module docstring).
+
+    Attributes
+    ----------
+    system : str
+        The system, e.g. "Ne"; the first system of a pair property.
+    property : str
+        What the number is (module docstring).
+    value : float
+        The number, in ``unit``.
+    unit : str
+        Its atomic unit in words: "hartree", "bohr^3", "hartree bohr^6", "1" (dimensionless).
+    path : str
+        Key path of the number in the JSON result, e.g. "polarizabilities[0].coupled".
+    partner : str or None
+        The second system of C6, C8, C10.
+    multipole : int or None
+        L of a response property.
+    frequency : float or None
+        omega (or nu if ``imaginary``), hartree.
+    imaginary : bool or None
+        True for omega = i nu.
+    level : str or None
+        "coupled" (TDHF) or "uncoupled".
+    k : int or None
+        The power of a sum rule S(k).
+    orbital : str or None
+        The subshell of an orbital energy.
+    index : int or None
+        The line of an excitation (1 = lowest listed of its multipole).
+    uncertainty : float or None
+        Certified absolute uncertainty (same unit); None if the run was not certified.
+    converged : bool
+        False if a solve behind the number did not converge.
+    """
 
     system: str
     property: str
@@ -67,7 +101,8 @@ def quantities(result: RunResult) -> tuple[Quantity, ...]:
     """Every finite number of ``result`` as a Quantity, with its certified uncertainty if any."""
     uncertainty = result.uncertainties()
     rows = []
-    for row in _rows(result):
+    every = list(_rows(result))
+    for row in every + list(_static_rows(result, every)):
         if row.value is None or not math.isfinite(row.value):
             continue
         rows.append(replace(row, value=float(row.value), uncertainty=uncertainty.get(row.path)))
@@ -115,13 +150,31 @@ def _rows(result: RunResult) -> Iterator[Quantity]:
         counters[row.multipole] = counters.get(row.multipole, 0) + 1
         common = dict(multipole=row.multipole, index=counters[row.multipole], level="coupled", converged=row.converged)
         yield Quantity(name, "excitation_energy", row.energy, "hartree", f"excitations[{i}].energy", **common)
-        yield Quantity(name, "oscillator_strength", row.oscillator_strength, "1",
+        yield Quantity(name, "oscillator_strength", row.oscillator_strength,
+                       property_unit("oscillator_strength", row.multipole),
                        f"excitations[{i}].oscillator_strength", **common)
+    for i, state in enumerate(result.partner_ground_states):
+        if state.system != result.atom:
+            yield Quantity(state.system.name, "total_energy", state.total_energy, "hartree",
+                           f"partner_ground_states[{i}].total_energy", converged=state.converged)
     for i, row in enumerate(result.dispersion):
         first, second = row.pair
         for order, value in (("C6", row.C6), ("C8", row.C8), ("C10", row.C10)):
-            yield Quantity(first, order, value, f"hartree bohr^{order[1:]}", f"dispersion[{i}].{order}",
+            yield Quantity(first, order, value, property_unit(order), f"dispersion[{i}].{order}",
                            partner=second, level="coupled", converged=row.converged)
+
+
+def _static_rows(result: RunResult, rows: list[Quantity]) -> Iterator[Quantity]:
+    """alpha_L(0) of each dispersion table's system, unless a response row already has it."""
+    known = {key_of(q) for q in rows}
+    for i, table in enumerate(result.polarizability_tables):
+        for L, name in ((1, "static_dipole"), (2, "static_quadrupole"), (3, "static_octupole")):
+            row = Quantity(table.system, "polarizability", getattr(table, name), multipole_unit(L),
+                           f"polarizability_tables[{i}].{name}", multipole=L, frequency=0.0, imaginary=False,
+                           level="coupled", converged=table.converged)
+            if key_of(row) not in known:
+                known.add(key_of(row))
+                yield row
 
 
 def _sum_rule_unit(multipole: int, k: int) -> str:
@@ -132,3 +185,21 @@ def _sum_rule_unit(multipole: int, k: int) -> str:
     if multipole > 1:
         parts.append(f"bohr^{2 * multipole - 2}")
     return " ".join(parts) if parts else "1"
+
+
+def property_unit(property: str, multipole: int | None = None, k: int | None = None) -> str:
+    """The atomic unit of a property in words, e.g. ``property_unit("C6") == "hartree bohr^6"``.
+
+    Oscillator strengths f = 2 omega |<n|r^L P_L|0>|^2 are in bohr^(2L-2) (dimensionless for L = 1).
+    """
+    if property in ("total_energy", "orbital_energy", "excitation_energy"):
+        return "hartree"
+    if property.startswith("polarizability"):
+        return multipole_unit(multipole)
+    if property == "sum_rule":
+        return _sum_rule_unit(multipole, k)
+    if property == "oscillator_strength":
+        return _sum_rule_unit(multipole, 0)
+    if property in ("C6", "C8", "C10"):
+        return f"hartree bohr^{property[1:]}"
+    return "1"

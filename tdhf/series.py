@@ -13,6 +13,13 @@ each written to ``<out>/<deck stem>.json``.
 * Two series writing one folder: each result file is claimed (:func:`tdhf.report.files.claim`)
   while its deck runs; a deck that another series holds is left for the end and taken up when
   that series lets go of it.  Temporary files an interrupted writer left are removed under the claim.
+* Certification (``certify=True``): each result is certified (:func:`tdhf.certify.certified`,
+  3-4 extra runs); a result file without a certificate is then not reused by resume.  A
+  certificate that fails keeps the run's own numbers, with a note.
+* Parallel (``map_tasks``, :mod:`tdhf.execution`): the decks this series can claim are computed
+  as independent tasks (a process pool or a Dask cluster); this process loads the decks, checks
+  resume and writes every file, so the workers need no access to the folder.  The numbers are
+  those of the serial run, bit for bit.
 """
 
 from __future__ import annotations
@@ -21,18 +28,21 @@ import json
 import logging
 import os
 import warnings
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
+from contextlib import ExitStack
 from typing import Any, Callable, Sequence
 
+from tdhf.certify import certified
 from tdhf.deck import Deck, deck_digest, load_deck
 from tdhf.driver import RunResult, program_info, run_deck
 from tdhf.errors import ConvergenceError, InputError, OutputError
+from tdhf.numerics.tasks import TaskMap, serial
 from tdhf.report.files import check_output_folder, claim, remove_stale_temporaries
 from tdhf.report.json_result import result_to_json
 from tdhf.report.serialize import write_json
 
-__all__ = ["SeriesEntry", "run_series", "reusable_result", "STATUSES"]
+__all__ = ["SeriesEntry", "run_series", "compute_deck", "reusable_result", "STATUSES"]
 
 logger = logging.getLogger(__name__)
 
@@ -69,10 +79,15 @@ def run_series(
     out_dir: Path,
     resume: bool = False,
     progress: Callable[[str], None] | None = None,
+    *,
+    certify: bool = False,
+    map_tasks: TaskMap | None = None,
+    counter: Callable[[int, int], None] | None = None,
 ) -> tuple[SeriesEntry, ...]:
-    """Run ``decks`` one after the other, writing ``out_dir/<deck stem>.json`` for each.
+    """Run ``decks`` (one after the other, or as tasks of ``map_tasks``), writing ``out_dir/<deck stem>.json``.
 
-    Returns one entry per deck in deck order (up to the interrupted one, if any).
+    Returns one entry per deck in deck order (up to the interrupted one, if any).  ``progress``
+    gets a stage description, ``counter(done, total)`` the number of decks finished.
 
     Raises
     ------
@@ -90,8 +105,16 @@ def run_series(
             raise InputError(f"series --out {out_dir}: the deck {deck} would be overwritten by its own result")
     check_output_folder(out_dir, "series --out")
     entries: dict[int, SeriesEntry] = {}
+
+    def finished(k: int, entry: SeriesEntry) -> None:
+        entries[k] = entry
+        if counter is not None:
+            counter(len(entries), len(decks))
+
     try:
-        _run_all(decks, outputs, resume, report, entries)
+        if map_tasks is not None:
+            _run_batch(decks, outputs, resume, certify, map_tasks, report, finished)
+        _run_all(decks, outputs, resume, certify, report, finished, skip=set(entries))
     except KeyboardInterrupt:  # between two decks: the next one is the interrupted one
         unfinished = [k for k in range(len(decks)) if k not in entries]
         if unfinished:
@@ -99,10 +122,15 @@ def run_series(
     return tuple(entries[k] for k in sorted(entries))
 
 
-def _run_all(decks: list[Path], outputs: list[Path], resume: bool, report: Callable[[str], None],
-             entries: dict[int, SeriesEntry]) -> None:
-    """Fill ``entries`` deck by deck (stopping at an interrupted one)."""
-    pending = list(range(len(decks)))
+def _claim_failed(path: Path, output: Path, err: OSError) -> SeriesEntry:
+    return _entry(path, "", "output error",
+                  f"series --out {output.parent}: cannot claim {output.name}: {err.strerror or err}")
+
+
+def _run_all(decks: list[Path], outputs: list[Path], resume: bool, certify: bool, report: Callable[[str], None],
+             finished: Callable[[int, SeriesEntry], None], skip: set[int]) -> None:
+    """Run the decks not in ``skip`` one by one (stopping at an interrupted one)."""
+    pending = [k for k in range(len(decks)) if k not in skip]
     for wait in (False, True):  # first every deck no other series holds, then the others
         held_elsewhere = []
         for k in pending:
@@ -112,14 +140,39 @@ def _run_all(decks: list[Path], outputs: list[Path], resume: bool, report: Calla
                         held_elsewhere.append(k)
                         continue
                     report(f"deck {k + 1}/{len(decks)}: {decks[k]}")
-                    entries[k] = _run_one(decks[k], outputs[k], resume)
+                    entry = _run_one(decks[k], outputs[k], resume, certify)
             except OSError as err:  # the lock file itself cannot be made: the folder changed under us
-                entries[k] = _entry(decks[k], "", "output error",
-                                    f"series --out {outputs[k].parent}: cannot claim {outputs[k].name}:"
-                                    f" {err.strerror or err}")
-            if entries[k].status == "interrupted":
+                entry = _claim_failed(decks[k], outputs[k], err)
+            finished(k, entry)
+            if entry.status == "interrupted":
                 return
         pending = held_elsewhere
+
+
+def _run_batch(decks: list[Path], outputs: list[Path], resume: bool, certify: bool, map_tasks: TaskMap,
+               report: Callable[[str], None], finished: Callable[[int, SeriesEntry], None]) -> None:
+    """Claim every deck no other series holds, then compute them all as tasks of ``map_tasks``.
+
+    Decks held elsewhere are left to :func:`_run_all`, which waits for them.
+    """
+    with ExitStack() as claims:
+        todo: list[tuple[int, Deck]] = []
+        for k, (path, output) in enumerate(zip(decks, outputs)):
+            try:
+                if not claims.enter_context(claim(output)):
+                    continue
+            except OSError as err:
+                finished(k, _claim_failed(path, output, err))
+                continue
+            deck, entry = _prepare(path, output, resume, certify)
+            if entry is not None:
+                finished(k, entry)
+            else:
+                todo.append((k, deck))
+        report(f"{len(todo)} decks to compute")
+        run = map_tasks if len(todo) > 1 else serial  # one deck: no process to start
+        for (k, _), outcome in zip(todo, run(compute_deck, [(deck, certify) for _, deck in todo])):
+            finished(k, _finish(decks[k], outputs[k], *outcome))
 
 
 def _entry(path: Path, output: Path | str, status: str, message: str, result: RunResult | None = None) -> SeriesEntry:
@@ -132,37 +185,72 @@ def _entry(path: Path, output: Path | str, status: str, message: str, result: Ru
     )
 
 
-def _run_one(path: Path, output: Path, resume: bool) -> SeriesEntry:
-    """Load, (re)compute and write one deck; every failure becomes the entry's status."""
+def _prepare(path: Path, output: Path, resume: bool, certify: bool = False) -> tuple[Deck | None, SeriesEntry | None]:
+    """Load a deck and check resume: (deck, None) if it is to be computed, else (None, its entry)."""
     try:
-        try:
-            deck = load_deck(path)
-        except InputError as err:
-            return _entry(path, "", "input error", str(err))
-        remove_stale_temporaries(output)
-        if resume:
-            data, reason = reusable_result(output, deck)
-            if data is not None:
-                return SeriesEntry(str(path), str(output), "skipped", data["atom"].get("name"),
-                                   data["ground_state"].get("total_energy"), "result file is complete and current")
-            logger.info("%s: recomputing (%s)", path, reason)
+        deck = load_deck(path)
+    except InputError as err:
+        return None, _entry(path, "", "input error", str(err))
+    remove_stale_temporaries(output)
+    if resume:
+        data, reason = reusable_result(output, deck)
+        if data is not None and certify and not data.get("certification"):
+            data, reason = None, "result file is not certified"
+        if data is not None:
+            return None, SeriesEntry(str(path), str(output), "skipped", data["atom"].get("name"),
+                                     data["ground_state"].get("total_energy"), "result file is complete and current")
+        logger.info("%s: recomputing (%s)", path, reason)
+    return deck, None
+
+
+def compute_deck(deck: Deck, certify: bool = False) -> tuple[RunResult | None, str, str]:
+    """Run (and certify) one deck: (result, "", "") or (None, status, message) for a failure.
+
+    Every failure but an interrupt becomes a status, so a task never raises (it may run in
+    another process).  A certificate that fails keeps the run's result, with a note.
+    """
+    try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)  # they are kept in the result file
             result = run_deck(deck)
-        try:
-            write_json(output, result_to_json(result), "series --out")
-        except OutputError as err:
-            return _entry(path, "", "output error", str(err), result)
-        problems = result.convergence_problems()
-        status = "rejected" if result.rejected else "not converged" if problems else "ok"
-        return _entry(path, output, status, "; ".join(result.rejected or problems), result)
+            if certify and result.ground_state.converged:
+                try:
+                    result = certified(result, deck)
+                except (InputError, ConvergenceError) as err:
+                    result = replace(result, warnings=(*result.warnings, f"certification failed: {err}"))
+        return result, "", ""
+    except InputError as err:
+        return None, "input error", str(err)
+    except ConvergenceError as err:
+        return None, "not converged", str(err)
+    except Exception as err:  # a bug, but it stays with its deck
+        logger.debug("internal error in a deck", exc_info=True)
+        return None, "internal error", f"internal error {type(err).__name__}: {err}"
+
+
+def _finish(path: Path, output: Path, result: RunResult | None, status: str, message: str) -> SeriesEntry:
+    """Write a computed result (or record its failure)."""
+    if result is None:
+        return _entry(path, "", status, message)
+    try:
+        write_json(output, result_to_json(result), "series --out")
+    except OutputError as err:
+        return _entry(path, "", "output error", str(err), result)
+    problems = result.convergence_problems()
+    status = "rejected" if result.rejected else "not converged" if problems else "ok"
+    return _entry(path, output, status, "; ".join(result.rejected or problems), result)
+
+
+def _run_one(path: Path, output: Path, resume: bool, certify: bool = False) -> SeriesEntry:
+    """Load, (re)compute and write one deck; every failure becomes the entry's status."""
+    try:
+        deck, entry = _prepare(path, output, resume, certify)
+        if entry is not None:
+            return entry
+        return _finish(path, output, *compute_deck(deck, certify))
     except KeyboardInterrupt:
         return _entry(path, "", "interrupted", "interrupted; its result file was not written")
-    except InputError as err:
-        return _entry(path, "", "input error", str(err))
-    except ConvergenceError as err:
-        return _entry(path, "", "not converged", str(err))
-    except Exception as err:  # a bug, but it stays with its deck
+    except Exception as err:  # a bug in the preparation, but it stays with its deck
         logger.debug("internal error in %s", path, exc_info=True)
         return _entry(path, "", "internal error", f"internal error {type(err).__name__}: {err}")
 

@@ -31,6 +31,7 @@ class System:
     charge : int
         Net charge Z - electrons.
     electrons : int
+        Number of electrons N.
     configuration : str
         Occupied subshells, e.g. "1s2 2s2 2p6".
     subshells : tuple of Subshell

@@ -10,7 +10,15 @@ __all__ = ["ProgramInfo", "program_info"]
 
 @dataclass(frozen=True)
 class ProgramInfo:
-    """Name and installed version of the program that made a result."""
+    """Name and installed version of the program that made a result.
+
+    Attributes
+    ----------
+    name : str
+        "tdhf".
+    version : str
+        The installed version ("unknown" outside an installation).
+    """
 
     name: str
     version: str

@@ -299,7 +299,7 @@ def test_cli_library_warnings_become_one_stderr_line(tmp_path):
 def test_cli_unexpected_error_exits_1_with_one_line(monkeypatch):
     import tdhf.cli
 
-    def broken(deck, progress=None):
+    def broken(deck, progress=None, map_tasks=None):
         raise RuntimeError("something impossible")
 
     monkeypatch.setattr("tdhf.driver.run_deck", broken)

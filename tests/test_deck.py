@@ -222,8 +222,27 @@ def test_example_inputs_load(path):
     assert parse_deck(format_deck(deck)) == deck
 
 
-def test_dispersion_takes_partners_or_systems_not_both():
+def test_dispersion_takes_partners_or_systems_or_pairs():
     deck = parse_deck('[atom]\nelement = "He"\n[dispersion]\nsystems = ["Ne", "Ar"]\n')
     assert deck.dispersion == DispersionSection(systems=("Ne", "Ar"))
-    with pytest.raises(InputError, match=r"^dispersion: give either partners .* or systems"):
+    with pytest.raises(InputError, match=r"^dispersion: give one of partners .*, systems .* or pairs"):
         parse_deck('[atom]\nelement = "He"\n[dispersion]\nsystems = ["Ne"]\npartners = ["Ar"]\n')
+
+
+def test_explicit_pairs_are_canonical_and_given_once():
+    deck = parse_deck('[atom]\nelement = "He"\n[dispersion]\npairs = ["na1+:Ne", "Ar:Kr"]\n')
+    assert deck.dispersion.pairs == ("Na+:Ne", "Ar:Kr") and deck.dispersion.names == ("Na+", "Ne", "Ar", "Kr")
+    for text, fragment in (('["He:Ne", "Ne:He"]', 'dispersion.pairs[1]: \'Ne:He\' repeats He:Ne'),
+                           ('["He"]', "dispersion.pairs[0]: 'He' is not a pair"),
+                           ('["He:Na"]', "dispersion.pairs[0]: 'Na': open")):
+        with pytest.raises(InputError) as error:
+            parse_deck(f'[atom]\nelement = "He"\n[dispersion]\npairs = {text}\n')
+        assert str(error.value).startswith(fragment)
+
+
+def test_frequencies_may_carry_units():
+    """CODATA via scipy.constants: 2.5 eV = 2.5 / 27.211386245981 hartree."""
+    deck = parse_deck('[atom]\nelement = "He"\n[response]\nfrequencies = [0.1, "2.5 eV"]\n')
+    assert deck.response.frequencies == (0.1, pytest.approx(2.5 / 27.211386245981, rel=1e-12))
+    with pytest.raises(InputError, match=r"^response.frequencies\[1\]: unknown frequency unit 'mm'; use one of"):
+        parse_deck('[atom]\nelement = "He"\n[response]\nfrequencies = [0.1, "3 mm"]\n')

@@ -35,6 +35,8 @@ from tdhf.deck import parse_deck
 from tdhf.driver import run_deck
 from tdhf.report.json_result import result_to_json
 from tdhf.errors import ConvergenceError, InputError
+from tdhf.execution import ProcessPool
+from tdhf.properties.response_properties import compute_response
 from tdhf.ground_state import GroundState, solve_ground_state
 from tdhf.properties import dispersion
 from tdhf.properties.dispersion import (
@@ -361,8 +363,18 @@ def test_series_has_every_unordered_pair_and_reports_progress(helium, beryllium)
 @pytest.mark.slow
 def test_two_workers_give_the_serial_numbers(helium, beryllium):
     serial = dispersion_table([helium, beryllium])
-    parallel = dispersion_table([helium, beryllium], workers=2)
+    with ProcessPool(2) as pool:
+        parallel = dispersion_table([helium, beryllium], map_tasks=pool)
     assert parallel == serial
+
+
+def test_static_polarizabilities_come_with_the_tables(helium):
+    """Common practice, no source: alpha_L(0) of a table, L = 1, 2, 3 in that order, equals the static
+    response compute_response gives (two call paths to one solve, agreeing to the Krylov tolerance)."""
+    table = compute_dispersion(helium, (helium,)).polarizability_tables[0]
+    direct = compute_response(helium, multipoles=(1, 2, 3)).polarizabilities
+    static = [table.static_dipole, table.static_quadrupole, table.static_octupole]
+    assert static == pytest.approx([row.coupled for row in direct], rel=1e-10)
 
 
 class _FailingSolver(dispersion.ResponseSolver):
@@ -414,9 +426,9 @@ def test_quadrature_points_out_of_range(helium, points):
         compute_dispersion(helium, (helium,), quadrature_points=points)
 
 
-def test_workers_must_be_positive(helium):
-    with pytest.raises(InputError, match="workers"):
-        dispersion_table([helium], workers=0)
+def test_workers_must_be_positive():
+    with pytest.raises(InputError, match="--workers"):
+        ProcessPool(0)
 
 
 # --------------------------------------------------------------------------------------------
@@ -447,7 +459,8 @@ def test_json_form_has_the_documented_keys(helium_neon):
         ["pair", "C6", "C8", "C10", "C6_error", "C8_error", "C10_error", "converged"])
     assert data["coefficients"][1]["pair"] == ["He", "Ne"]
     assert sorted(data["polarizability_tables"][0]) == sorted(
-        ["system", "frequencies", "weights", "dipole", "quadrupole", "octupole", "converged"])
+        ["system", "frequencies", "weights", "dipole", "quadrupole", "octupole", "converged", "static_dipole",
+         "static_quadrupole", "static_octupole"])
 
 
 def test_driver_runs_a_dispersion_deck():

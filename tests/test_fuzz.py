@@ -183,8 +183,8 @@ def test_any_command_line_gives_a_documented_exit_code(tmp_path, monkeypatch, he
     output checks, printing, writing, series bookkeeping) runs for real."""
     monkeypatch.chdir(tmp_path)
     (tmp_path / "deck.toml").write_text('[atom]\nelement = "He"\n')
-    monkeypatch.setattr("tdhf.driver.run_deck", lambda deck, progress=None: helium_result)
-    monkeypatch.setattr("tdhf.series.run_deck", lambda deck, progress=None: helium_result)
+    monkeypatch.setattr("tdhf.driver.run_deck", lambda deck, progress=None, map_tasks=None: helium_result)
+    monkeypatch.setattr("tdhf.series.run_deck", lambda deck, progress=None, map_tasks=None: helium_result)
     monkeypatch.setattr("tdhf.certify.certify", lambda result, deck, progress=None: ())
     out, err = io.StringIO(), io.StringIO()
     code = tdhf.cli.main(argv, stdout=out, stderr=err)

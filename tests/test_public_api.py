@@ -28,14 +28,34 @@ def _imports(path: Path) -> set[str]:
     return names
 
 
-def test_numerical_core_imports_no_files_terminal_or_cli():
-    """Common practice, no source: the numerical layers never import rich, the deck, the driver or the CLI."""
-    core = [*PACKAGE.glob("radial/*.py"), *PACKAGE.glob("response/*.py"), *PACKAGE.glob("properties/*.py"),
-            *(PACKAGE / name for name in ("angular.py", "potentials.py", "scf.py", "ground_state.py", "elements.py"))]
-    forbidden = ("rich", "tdhf.deck", "tdhf.driver", "tdhf.cli", "tdhf.report", "tomllib")
-    for path in core:
-        bad = [name for name in _imports(path) if name.startswith(forbidden)]
+#: The numerical core: it computes and returns typed results, nothing else.
+CORE = [*PACKAGE.glob("radial/*.py"), *PACKAGE.glob("response/*.py"), *PACKAGE.glob("properties/*.py"),
+        *PACKAGE.glob("numerics/*.py"),
+        *(PACKAGE / name for name in ("angular.py", "potentials.py", "scf.py", "ground_state.py", "elements.py",
+                                      "system.py", "accuracy.py"))]
+#: What the core never imports: terminals, decks, the layers above it, files and processes.
+FORBIDDEN_IN_CORE = ("rich", "tdhf.deck", "tdhf.driver", "tdhf.cli", "tdhf.report", "tdhf.execution", "tomllib",
+                     "os", "pathlib", "csv", "tempfile", "shutil", "io", "multiprocessing", "concurrent",
+                     "subprocess", "signal", "dask", "distributed", "matplotlib")
+
+
+def _is_forbidden(module: str) -> bool:
+    return any(module == name or module.startswith(f"{name}.") for name in FORBIDDEN_IN_CORE)
+
+
+def test_numerical_core_imports_no_files_processes_terminal_or_cli():
+    """Common practice, no source: the numerical layers never touch files, processes or terminals, nor
+    import the layers above them (tdhf.execution supplies process pools through a task map)."""
+    assert len(CORE) > 20
+    for path in CORE:
+        bad = sorted(name for name in _imports(path) if _is_forbidden(name))
         assert not bad, f"{path.relative_to(PACKAGE)} imports {bad}"
+
+
+def test_the_layering_check_catches_a_forbidden_import():
+    """The check above must be able to fail: the execution layer itself imports processes."""
+    assert _is_forbidden("concurrent.futures") and _is_forbidden("os") and not _is_forbidden("osmium")
+    assert any(_is_forbidden(name) for name in _imports(PACKAGE / "execution.py"))
 
 
 def test_the_command_line_imports_no_numerics_until_a_command_runs():
@@ -47,3 +67,13 @@ def test_the_command_line_imports_no_numerics_until_a_command_runs():
     probe = "import sys, tdhf.cli; print(sorted(m for m in ('numpy', 'scipy', 'rich', 'tdhf.deck') if m in sys.modules))"
     loaded = subprocess.run([sys.executable, "-c", probe], capture_output=True, text=True, check=True).stdout
     assert loaded.strip() == "[]"
+
+
+def test_the_command_lines_copies_of_the_choices_match_the_library():
+    """Common practice, no source: tdhf.commands repeats two lists so that --help imports no numerics."""
+    from tdhf import commands
+    from tdhf.units import UNIT_SYSTEMS
+    from tdhf.user_values import COMPARABLE
+
+    assert commands._UNIT_SYSTEMS == UNIT_SYSTEMS
+    assert commands._PROPERTIES == tuple(COMPARABLE)

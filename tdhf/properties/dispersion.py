@@ -67,8 +67,9 @@ seen at 1e-10..1e-9 for atoms with deep d and p shells (He–Cd C6: errors 1.1e-
 ~1.5e-10 at its Krylov tolerance).  The error is that of the frequency quadrature only; the radial grid's error
 is separate (compare a run with ``GridSettings.tight()``).  A single ω0 for all pairs lets each
 atom's :math:`\alpha_l(i\omega)` be solved once, on the union of both rules' nodes, and reused for
-every pair; pairs then cost a few dot products.  ``workers`` > 1 spreads the (system,
-multipole) responses over processes, with bit-identical results.
+every pair; pairs then cost a few dot products.  The (system, multipole) responses are
+independent: ``map_tasks`` (:mod:`tdhf.execution`) may run them elsewhere (a process pool, a
+cluster), with bit-identical results.
 
 Non-convergence policy
 ~~~~~~~~~~~~~~~~~~~~~~
@@ -92,9 +93,7 @@ the pair ``converged=False``, and a note naming the system goes to ``warnings`` 
 from __future__ import annotations
 
 import math
-import multiprocessing
 import warnings
-from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass
 from typing import Callable, Sequence
 
@@ -102,6 +101,7 @@ import numpy as np
 
 from tdhf.errors import ConvergenceError, InputError, TdhfError
 from tdhf.ground_state import GroundState
+from tdhf.numerics.tasks import TaskMap
 from tdhf.numerics.threads import single_blas_thread
 from tdhf.numerics.extrapolation import lagrange_extrapolate
 from tdhf.response.solver import FirstOrderOrbitals, ResponseSolver, ResponseTolerances
@@ -112,6 +112,7 @@ __all__ = [
     "ImaginaryFrequencyTable",
     "compute_dispersion",
     "dispersion_table",
+    "dispersion_pairs",
     "imaginary_frequency_rule",
     "companion_points",
     "imaginary_polarizabilities",
@@ -188,6 +189,7 @@ class ImaginaryFrequencyTable:
     Attributes
     ----------
     system : str
+        The system's name, e.g. "Na+".
     frequencies : tuple of float, shape (m,)
         Quadrature nodes omega_k in hartree, ascending (m = n + n//2).
     weights : tuple of float, shape (m,)
@@ -196,6 +198,9 @@ class ImaginaryFrequencyTable:
         :math:`\alpha_1, \alpha_2, \alpha_3` at :math:`i\omega_k` (a.u.); NaN if that response failed.
     converged : bool
         False if any of the system's responses failed (its NaN entries).
+    static_dipole, static_quadrupole, static_octupole : float
+        :math:`\alpha_1(0), \alpha_2(0), \alpha_3(0)` (a.u.) from one static solve each (not used
+        by the quadrature); NaN where that response failed.
     """
 
     system: str
@@ -205,6 +210,9 @@ class ImaginaryFrequencyTable:
     quadrupole: tuple[float, ...]
     octupole: tuple[float, ...]
     converged: bool = True
+    static_dipole: float = math.nan
+    static_quadrupole: float = math.nan
+    static_octupole: float = math.nan
 
 
 @dataclass(frozen=True)
@@ -303,6 +311,7 @@ def imaginary_polarizabilities(
     multipoles: Sequence[int] = MULTIPOLES,
     progress: Callable[[int], None] | None = None,
     tolerances: ResponseTolerances = ResponseTolerances(),
+    static: bool = False,
 ) -> np.ndarray:
     r"""Coupled TDHF :math:`\alpha_L(i\omega)` (a.u.) at real ``frequencies`` omega >= 0 (hartree).
 
@@ -313,10 +322,13 @@ def imaginary_polarizabilities(
     ----------
     progress : callable, optional
         Called with 1 after each frequency solve.
+    static : bool
+        Also solve at omega = 0 after the sweep (its own solve, so the sweep is unchanged) and
+        return alpha_L(0) as an extra last column.
 
     Returns
     -------
-    ndarray, shape (len(multipoles), len(frequencies))
+    ndarray, shape (len(multipoles), len(frequencies) + static)
 
     Raises
     ------
@@ -324,7 +336,7 @@ def imaginary_polarizabilities(
         If a coupled solve does not converge or alpha is not finite.
     """
     frequencies = np.asarray(frequencies, dtype=float)
-    out = np.empty((len(multipoles), frequencies.size))
+    out = np.empty((len(multipoles), frequencies.size + bool(static)))
     name = ground_state.system.name
     for i, multipole in enumerate(multipoles):
         solver = ResponseSolver(ground_state.grid, ground_state.system.Z, ground_state.shells,
@@ -343,6 +355,13 @@ def imaginary_polarizabilities(
             out[i, k] = alpha
             if progress is not None:
                 progress(1)
+        if static:
+            first_order = solver.solve(0.0, tolerances=tolerances)
+            alpha = float(solver.polarizability(first_order).real)
+            if not first_order.converged or not math.isfinite(alpha):
+                raise ConvergenceError(f"response of {name}: static L={multipole} gave alpha = {alpha!r}"
+                                       f" ({first_order.status.describe()})")
+            out[i, -1] = alpha
     return out
 
 
@@ -389,41 +408,40 @@ class _Rules:
 @dataclass(frozen=True)
 class _SystemResponse:
     name: str
-    alpha: np.ndarray  # shape (3, union nodes); NaN rows for failed multipoles
+    alpha: np.ndarray  # shape (3, union nodes + 1): alpha_L(i w) then alpha_L(0); NaN rows for failed multipoles
 
 
-def _check_options(points: int, workers: int) -> None:
+def _check_options(points: int) -> None:
     low, high = QUADRATURE_RANGE
     if isinstance(points, bool) or not isinstance(points, (int, np.integer)) or not low <= points <= high:
         raise InputError(f"dispersion.quadrature_points: {points!r} is not an integer in {low}..{high}")
-    if isinstance(workers, bool) or not isinstance(workers, (int, np.integer)) or workers < 1:
-        raise InputError(f"dispersion: workers = {workers!r} is not an integer >= 1")
 
 
 def _response_task(
     state: GroundState, multipole: int, nodes: np.ndarray, progress: Callable[[int], None] | None = None,
     tolerances: ResponseTolerances = ResponseTolerances(),
 ) -> tuple[np.ndarray | None, str | None]:
-    """alpha_L at ``nodes``, or None and the failure ("ErrorType: message"); bugs propagate."""
+    """alpha_L at ``nodes`` followed by alpha_L(0), or None and the failure ("ErrorType: message");
+    bugs propagate."""
     try:
-        return imaginary_polarizabilities(state, nodes, (multipole,), progress, tolerances)[0], None
+        return imaginary_polarizabilities(state, nodes, (multipole,), progress, tolerances, static=True)[0], None
     except _RESPONSE_FAILURES as err:
         return None, f"{type(err).__name__}: {err}"
 
 
 def _solve_systems(
-    states: Sequence[GroundState], rules: _Rules, workers: int, advance: Callable[[int], None],
+    states: Sequence[GroundState], rules: _Rules, map_tasks: TaskMap | None, advance: Callable[[int], None],
     tolerances: ResponseTolerances = ResponseTolerances(),
 ) -> tuple[list[_SystemResponse], list[str]]:
     """alpha_L on the union of nodes for each state; failures become NaN rows and notes.
 
-    With ``workers`` > 1 the (system, multipole) tasks run in that many spawned processes, the
-    costliest first; each task is the same computation as in the serial loop, so the numbers are
-    bit-identical (one BLAS thread everywhere).
+    With ``map_tasks`` the (system, multipole) tasks go to it, the costliest first; each task is
+    the same computation as in the serial loop, so the numbers are bit-identical (one BLAS thread
+    everywhere).
     """
-    alphas = [np.full((len(MULTIPOLES), rules.nodes.size), np.nan) for _ in states]
+    alphas = [np.full((len(MULTIPOLES), rules.nodes.size + 1), np.nan) for _ in states]
     tasks = [(k, i) for k, state in enumerate(states) if state.converged for i in range(len(MULTIPOLES))]
-    advance(sum(alpha.size for state, alpha in zip(states, alphas) if not state.converged))
+    advance(sum(len(MULTIPOLES) * rules.nodes.size for state in states if not state.converged))
     failures: dict[tuple[int, int], str] = {}
 
     def store(task: tuple[int, int], result: tuple[np.ndarray | None, str | None]) -> None:
@@ -433,7 +451,7 @@ def _solve_systems(
         else:
             failures[task] = failure
 
-    if workers == 1 or len(tasks) < 2:
+    if map_tasks is None or len(tasks) < 2:
         for task in tasks:
             done = [0]
 
@@ -446,13 +464,10 @@ def _solve_systems(
     else:
         # Cost of a solve ~ grid points^2 x subshells: start the heavy atoms first.
         ordered = sorted(tasks, key=lambda t: -states[t[0]].grid_points ** 2 * len(states[t[0]].orbitals))
-        context = multiprocessing.get_context("spawn")  # no fork of a process with BLAS threads
-        with ProcessPoolExecutor(max_workers=min(workers, len(tasks)), mp_context=context) as pool:
-            futures = {pool.submit(_response_task, states[k], MULTIPOLES[i], rules.nodes, None, tolerances): (k, i)
-                       for k, i in ordered}
-            for future in as_completed(futures):
-                store(futures[future], future.result())
-                advance(rules.nodes.size)
+        arguments = [(states[k], MULTIPOLES[i], rules.nodes, None, tolerances) for k, i in ordered]
+        for task, result in zip(ordered, map_tasks(_response_task, arguments)):
+            store(task, result)
+            advance(rules.nodes.size)
     notes = []
     for k, state in enumerate(states):
         name = state.system.name
@@ -493,6 +508,9 @@ def _table(response: _SystemResponse, rules: _Rules) -> ImaginaryFrequencyTable:
         quadrupole=tuple(float(x) for x in alpha[1]),
         octupole=tuple(float(x) for x in alpha[2]),
         converged=bool(np.all(np.isfinite(alpha))),
+        static_dipole=float(response.alpha[0, -1]),
+        static_quadrupole=float(response.alpha[1, -1]),
+        static_octupole=float(response.alpha[2, -1]),
     )
 
 
@@ -501,11 +519,11 @@ def _run(
     pairs: Sequence[tuple[int, int]],
     points: int,
     progress: Progress | None,
-    workers: int,
+    map_tasks: TaskMap | None,
     tolerances: ResponseTolerances = ResponseTolerances(),
 ) -> DispersionResults:
     """Solve each distinct state (by identity) once, then sum every pair of indices into ``states``."""
-    _check_options(points, workers)
+    _check_options(points)
     rules = _Rules.make(points)
     position: dict[int, int] = {}  # id(state) -> index into `unique`
     unique: list[GroundState] = []
@@ -522,7 +540,7 @@ def _run(
             if progress is not None:
                 progress(done[0], total)
 
-    responses, notes = _solve_systems(unique, rules, workers, advance, tolerances)
+    responses, notes = _solve_systems(unique, rules, map_tasks, advance, tolerances)
     by_index = [responses[position[id(state)]] for state in states]
     rows = [_pair(by_index[i], by_index[j], rules, notes) for i, j in pairs]
     for note in notes:
@@ -540,7 +558,7 @@ def compute_dispersion(
     quadrature_points: int = DEFAULT_QUADRATURE_POINTS,
     *,
     progress: Progress | None = None,
-    workers: int = 1,
+    map_tasks: TaskMap | None = None,
     tolerances: ResponseTolerances = ResponseTolerances(),
 ) -> DispersionResults:
     """C6, C8, C10 of ``ground_state`` with each partner.
@@ -555,9 +573,10 @@ def compute_dispersion(
         Base rule size n in QUADRATURE_RANGE; the reported values use n + n//2 nodes.
     progress : callable, optional
         ``progress(done, total)`` counted in frequency solves: after each solve (serial) or
-        each finished (system, multipole) block (``workers`` > 1).
-    workers : int
-        Processes for the responses; 1 (default) solves in this process.  Same numbers either way.
+        each finished (system, multipole) block (with ``map_tasks``).
+    map_tasks : callable, optional
+        Where the (system, multipole) responses run (:mod:`tdhf.execution`); by default here, one
+        after the other.  Same numbers either way.
 
     Returns
     -------
@@ -568,10 +587,10 @@ def compute_dispersion(
     Raises
     ------
     InputError
-        If ``quadrature_points`` is not an integer in QUADRATURE_RANGE or ``workers`` < 1.
+        If ``quadrature_points`` is not an integer in QUADRATURE_RANGE.
     """
     states = (ground_state, *partners)
-    return _run(states, [(0, k) for k in range(1, len(states))], quadrature_points, progress, workers, tolerances)
+    return _run(states, [(0, k) for k in range(1, len(states))], quadrature_points, progress, map_tasks, tolerances)
 
 
 def dispersion_table(
@@ -579,7 +598,7 @@ def dispersion_table(
     quadrature_points: int = DEFAULT_QUADRATURE_POINTS,
     progress: Progress | None = None,
     *,
-    workers: int = 1,
+    map_tasks: TaskMap | None = None,
     tolerances: ResponseTolerances = ResponseTolerances(),
 ) -> DispersionResults:
     """C6, C8, C10 of every unordered pair of a series, like pairs included.
@@ -590,4 +609,25 @@ def dispersion_table(
     """
     n = len(ground_states)
     pairs = [(i, j) for i in range(n) for j in range(i, n)]
-    return _run(tuple(ground_states), pairs, quadrature_points, progress, workers, tolerances)
+    return _run(tuple(ground_states), pairs, quadrature_points, progress, map_tasks, tolerances)
+
+
+def dispersion_pairs(
+    ground_states: Sequence[GroundState],
+    pairs: Sequence[tuple[int, int]],
+    quadrature_points: int = DEFAULT_QUADRATURE_POINTS,
+    progress: Progress | None = None,
+    *,
+    map_tasks: TaskMap | None = None,
+    tolerances: ResponseTolerances = ResponseTolerances(),
+) -> DispersionResults:
+    """C6, C8, C10 of the given pairs (i, j) of indices into ``ground_states``, in that order.
+
+    Each system's response is solved once however many pairs it is in.  Parameters, returns and
+    errors as :func:`compute_dispersion`; an index outside ``ground_states`` is an InputError.
+    """
+    n = len(ground_states)
+    for number, (i, j) in enumerate(pairs):
+        if not (0 <= i < n and 0 <= j < n):
+            raise InputError(f"dispersion.pairs[{number}]: ({i}, {j}) is not a pair of the {n} systems")
+    return _run(tuple(ground_states), list(pairs), quadrature_points, progress, map_tasks, tolerances)

@@ -49,6 +49,36 @@ class Polarizability:
     above every excitation) or "direct" (uncoupled or one-electron: no coupling to solve).
     ``converged`` is False if any solve behind the row's numbers did not converge; ``residual``
     is the largest relative residual of those solves.
+
+    Attributes
+    ----------
+    multipole : int
+        L (1 dipole, 2 quadrupole, 3 octupole).
+    frequency : float
+        omega in hartree (real axis) or nu (``imaginary``: omega = i nu).
+    imaginary : bool
+        True on the imaginary axis.
+    coupled, uncoupled : float
+        alpha_L in bohr^(2L+1): TDHF (coupled Hartree-Fock) and uncoupled (no induced field);
+        the real part for a broadened frequency.
+    broadening : float
+        eta in hartree (0: none); the frequency is then omega + i eta.
+    coupled_imaginary_part, uncoupled_imaginary_part : float
+        Im alpha_L at omega + i eta (0 without broadening), bohr^(2L+1).
+    converged : bool
+        Every solve behind the row converged.
+    krylov_iterations : int
+        GMRES steps of the coupled solve.
+    r_max : float
+        Box radius of the solve, bohr (larger than the ground state's when the response needed it).
+    velocity_form : float or None
+        The dipole velocity-form alpha (bohr^3), equal to ``coupled`` in a complete basis.
+    residual : float
+        Largest relative residual of the solves behind the row.
+    pole_below, pole_above : float or None
+        Neighbouring excitation energies of a real frequency, hartree.
+    method : str
+        "krylov", "asymptotic series" or "direct" (see above).
     """
 
     multipole: int
@@ -71,7 +101,23 @@ class Polarizability:
 
 @dataclass(frozen=True)
 class DipoleShielding:
-    """beta at one frequency: from the induced density (``direct``) and from (N + w^2 alpha)/Z."""
+    """beta at one frequency: from the induced density (``direct``) and from (N + w^2 alpha)/Z.
+
+    Attributes
+    ----------
+    frequency : float
+        omega or nu (``imaginary``), hartree.
+    imaginary : bool
+        True on the imaginary axis.
+    direct : float
+        beta = -integral of the induced density times C_10/r^2, per unit field (dimensionless).
+    from_polarizability : float
+        The same from the acceleration-form identity (N + omega^2 alpha_1)/Z.
+    difference : float
+        direct - from_polarizability: a measure of the grid (0 in a complete basis).
+    converged : bool
+        The coupled solve behind ``direct`` converged.
+    """
 
     frequency: float
     imaginary: bool
@@ -83,7 +129,19 @@ class DipoleShielding:
 
 @dataclass(frozen=True)
 class QuadrupoleShielding:
-    """Sternheimer-type gamma_inf at one real or imaginary frequency, coupled and uncoupled."""
+    """Sternheimer-type gamma_inf at one real or imaginary frequency, coupled and uncoupled.
+
+    Attributes
+    ----------
+    frequency : float
+        omega or nu (``imaginary``), hartree.
+    imaginary : bool
+        True on the imaginary axis.
+    coupled, uncoupled : float
+        gamma_inf (dimensionless; negative: antishielding); uncoupled is None at an uncoupled pole.
+    converged : bool
+        The coupled solve converged.
+    """
 
     frequency: float
     imaginary: bool

@@ -83,6 +83,23 @@ class Excitation:
     ionization threshold (a pseudo-state of the discretized continuum); ``box_fraction`` is the
     largest |excited orbital| beyond 0.75 R relative to its maximum (lines are listed only if it
     is below :data:`BOX_FRACTION`).
+
+    Attributes
+    ----------
+    multipole : int
+        L of the transition (1: 1P lines of a 1S atom).
+    energy : float
+        Excitation energy, hartree.
+    oscillator_strength : float
+        f = 2 omega |<n|sum r^L P_L|0>|^2, dimensionless for L = 1 (bohr^(2L-2) otherwise).
+    bound : bool
+        Below the ionization threshold.
+    converged : bool
+        The root's residual is within the eigensolver tolerance.
+    residual : float
+        Preconditioned residual of the root.
+    box_fraction : float
+        Largest |excited orbital| beyond 0.75 R over its maximum (the box holds the line if small).
     """
 
     multipole: int
@@ -380,6 +397,19 @@ class StrengthDistribution:
     pseudo-lines the box squeezes); ``continuum_sum`` = ``total`` - ``discrete_sum`` is the strength
     of the box-discretized continuum above it, where ``total`` is the exact S(0) of the same
     discrete space.
+
+    Attributes
+    ----------
+    multipole : int
+        L.
+    continuum_threshold : float
+        -epsilon_HOMO, hartree.
+    discrete_states : int
+        Roots of visible strength below the threshold.
+    discrete_sum, continuum_sum, total : float
+        Their summed f, the rest, and S(0).
+    converged : bool
+        The eigensolver converged.
     """
 
     multipole: int

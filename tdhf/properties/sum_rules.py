@@ -31,6 +31,19 @@ class SumRule:
     """S_L(k) coupled (``value``) and uncoupled; ``exact`` is the RPA identity where one exists.
 
     ``converged`` is False if a solve behind ``value`` or ``uncoupled`` did not converge.
+
+    Attributes
+    ----------
+    multipole : int
+        L.
+    k : int
+        The power: S_L(k) = sum_n omega_n^k f_n (0: the TRK sum, N for L = 1; -2: alpha_L(0)).
+    value, uncoupled : float
+        Coupled (TDHF) and uncoupled sums, hartree^k bohr^(2L-2).
+    exact : float or None
+        The exact value of the same discrete RPA space (the double commutator for k = 0).
+    converged : bool
+        Every solve behind the row converged.
     """
 
     multipole: int

@@ -32,7 +32,7 @@ from typing import Iterator
 
 from tdhf.errors import InputError, OutputError
 
-__all__ = ["OutputTarget", "check_output_file", "check_output_folder", "write_text", "claim",
+__all__ = ["OutputTarget", "check_output_file", "check_output_folder", "write_text", "write_bytes", "claim",
            "remove_stale_temporaries"]
 
 
@@ -177,13 +177,18 @@ def write_text(path: str | Path | OutputTarget, text: str, option: str = "") -> 
     OutputError
         If the file cannot be written; the message names it and the reason.
     """
+    write_bytes(path, text.encode("utf-8"), option)
+
+
+def write_bytes(path: str | Path | OutputTarget, data: bytes, option: str = "") -> None:
+    """Write ``data`` (e.g. a PNG picture) to a path like :func:`write_text`."""
     if isinstance(path, OutputTarget):
         option, path = path.option, path.path
     path = Path(path)
     label = f"{option} {path}" if option else str(path)
     try:
         plan = _plan(path, option)
-        (_replace if plan.atomic else _write_through)(plan.target, text.encode("utf-8"))
+        (_replace if plan.atomic else _write_through)(plan.target, data)
     except _Refused as why:
         raise OutputError(f"{label}: cannot write the file: {why}") from None
     except OSError as err:

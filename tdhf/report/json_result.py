@@ -1,7 +1,7 @@
 """The JSON object of a run: :class:`tdhf.driver.RunResult` fields as keys, uncertainties beside values.
 
-* The response lists are left out when the deck had no ``[response]`` table, ``dispersion`` and
-  ``polarizability_tables`` when it had no ``[dispersion]`` table, ``certification`` when the run
+* The response lists are left out when the deck had no ``[response]`` table, ``dispersion``,
+  ``polarizability_tables`` and ``partner_ground_states`` when it had no ``[dispersion]`` table, ``certification`` when the run
   was not certified; otherwise they are present, possibly empty.
 * A certified number ``x`` at key path ``p`` gets a sibling ``x_uncertainty`` (absolute, same unit):
   the largest change of the number over the varied approximations (:mod:`tdhf.certify`).
@@ -32,6 +32,7 @@ def result_to_json(result: RunResult) -> dict[str, Any]:
     if result.settings.dispersion is None:
         del data["dispersion"]
         del data["polarizability_tables"]
+        del data["partner_ground_states"]
     if not result.certification:
         del data["certification"]
     for path, uncertainty in result.uncertainties().items():

@@ -30,8 +30,8 @@ if TYPE_CHECKING:  # only for annotations: the report layer reads results, it do
     from tdhf.driver import RunResult
     from tdhf.ground_state import GroundState
 
-__all__ = ["print_report", "header_line", "ground_state_table", "orbital_table", "rows_table", "format_value",
-           "Column", "ROW_TABLES", "SERIES_COLUMNS", "UNCERTIFIED_DIGITS"]
+__all__ = ["print_report", "header_line", "new_table", "MISSING", "ground_state_table", "orbital_table", "rows_table", "format_value",
+           "Column", "ROW_TABLES", "dispersion_systems_table", "SERIES_COLUMNS", "UNCERTIFIED_DIGITS"]
 
 MISSING = "-"
 #: Significant digits of a number printed without a certificate.
@@ -67,7 +67,7 @@ def format_value(value: float, uncertainty: float | None) -> str:
     return f"{value:.{digits}e}({units})"
 
 
-def _new_table(title: str) -> Table:
+def new_table(title: str) -> Table:
     """A table in the house style: light rules, units on a second header line."""
     return Table(title=title, title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False)
 
@@ -232,7 +232,7 @@ def header_line(result: "RunResult") -> Text:
 def ground_state_table(state: "GroundState", uncertainties: Mapping[str, float] | None = None) -> Table:
     """Energy components, virial ratio, density at the nucleus, convergence and grid."""
     known = uncertainties or {}
-    table = _new_table("Hartree-Fock ground state")
+    table = new_table("Hartree-Fock ground state")
     _add_column(table, "quantity", "left")
     _add_column(table, "value")
     _add_column(table, "unit", "left")
@@ -261,7 +261,7 @@ def ground_state_table(state: "GroundState", uncertainties: Mapping[str, float] 
 def orbital_table(state: "GroundState", uncertainties: Mapping[str, float] | None = None) -> Table:
     """One row per occupied subshell: occupation, energy (hartree and eV), <r> and <r^2>."""
     known = uncertainties or {}
-    table = _new_table("Orbitals")
+    table = new_table("Orbitals")
     for header in ("orbital", "occ.", "energy\n(hartree)", "energy\n(eV)", "<r>\n(bohr)", "<r^2>\n(bohr^2)"):
         _add_column(table, header, "left" if header == "orbital" else "right")
     for i, orbital in enumerate(state.orbitals):
@@ -290,7 +290,7 @@ def rows_table(
     With ``list_name`` (the RunResult field of the rows) the numbers of key columns are printed
     with the digits their uncertainty allows, looked up by key path in ``uncertainties``.
     """
-    table = _new_table(title)
+    table = new_table(title)
     columns = [c for c in columns if not c.optional or any(c.value(row) not in (None, 0, 0.0) for row in rows)]
     for column in columns:
         _add_column(table, column.header)
@@ -307,6 +307,25 @@ def rows_table(
     return table
 
 
+def dispersion_systems_table(result: "RunResult", uncertainties: Mapping[str, float] | None = None) -> Table:
+    """Each system of the dispersion tables: its total energy and static alpha_1, alpha_2, alpha_3."""
+    known = uncertainties or {}
+    energies = {result.atom.name: (result.ground_state.total_energy, "ground_state.total_energy")}
+    for i, state in enumerate(result.partner_ground_states):
+        energies.setdefault(state.system.name, (state.total_energy, f"partner_ground_states[{i}].total_energy"))
+    table = new_table("Systems of the dispersion table")
+    for header in ("system", "total energy\n(hartree)", "alpha_1(0)\n(bohr^3)", "alpha_2(0)\n(bohr^5)",
+                   "alpha_3(0)\n(bohr^7)"):
+        _add_column(table, header, "left" if header == "system" else "right")
+    for i, row in enumerate(result.polarizability_tables):
+        energy, path = energies.get(row.system, (None, ""))
+        cells = [format_value(energy, known.get(path))]
+        cells += [format_value(getattr(row, name), known.get(f"polarizability_tables[{i}].{name}"))
+                  for name in ("static_dipole", "static_quadrupole", "static_octupole")]
+        table.add_row(row.system, *cells)
+    return table
+
+
 def print_report(console: Console, result: "RunResult") -> None:
     """Print the header, the ground-state and orbital tables, and every non-empty result list."""
     uncertainties = result.uncertainties()
@@ -317,5 +336,7 @@ def print_report(console: Console, result: "RunResult") -> None:
         rows = getattr(result, name)
         if rows:
             console.print(rows_table(title, rows, columns, uncertainties, None if name == "certification" else name))
+        if name == "dispersion" and result.polarizability_tables:
+            console.print(dispersion_systems_table(result, uncertainties))
     if any(getattr(result, name) for name in ROW_TABLES if name != "certification") and not uncertainties:
         console.print(UNCERTIFIED_NOTE)

@@ -1,0 +1,67 @@
+"""The execution layer: task maps keep task order, and a pool or a Dask cluster gives the serial numbers.
+
+Common practice, no source: the same computation in another process must give the same bits
+(one BLAS thread everywhere), so equality is exact.
+"""
+
+import sys
+
+import pytest
+
+from tdhf.deck import parse_deck
+from tdhf.driver import run_deck
+from tdhf.errors import InputError
+from tdhf.execution import DaskCluster, ProcessPool, default_workers, serial, task_map
+from tdhf.properties.dispersion import dispersion_table
+
+PAIR_DECK = '[atom]\nelement = "He"\n[dispersion]\nsystems = ["Be"]\nquadrature_points = 16\n'
+
+
+def _square(x):
+    return x * x
+
+
+def test_serial_and_pool_keep_the_task_order():
+    tasks = [(k,) for k in range(7)]
+    assert list(serial(_square, tasks)) == [k * k for k in range(7)]
+    with ProcessPool(2) as pool:
+        assert list(pool(_square, tasks)) == [k * k for k in range(7)]
+    with task_map(workers=1) as run:
+        assert run is serial
+    assert default_workers() >= 1
+
+
+def test_bad_worker_counts_and_a_missing_dask_are_one_line_errors(monkeypatch):
+    for bad in (0, -1, 1.5, True):
+        with pytest.raises(InputError, match="--workers"):
+            ProcessPool(bad)
+    monkeypatch.setitem(sys.modules, "distributed", None)  # as if the [cluster] extra were not installed
+    with pytest.raises(InputError, match=r"pip install 'tdhf\[cluster\]'"):
+        with DaskCluster("tcp://127.0.0.1:1"):
+            pass
+
+
+def test_an_unreachable_scheduler_is_an_input_error():
+    pytest.importorskip("distributed")
+    with pytest.raises(InputError, match="cannot reach the Dask scheduler"):
+        with DaskCluster("tcp://127.0.0.1:1", timeout=1):
+            pass
+
+
+@pytest.mark.slow
+def test_a_pool_gives_the_serial_numbers_of_a_deck():
+    deck = parse_deck(PAIR_DECK)
+    alone = run_deck(deck)
+    with ProcessPool(2) as pool:
+        spread = run_deck(deck, map_tasks=pool)
+    assert spread.dispersion == alone.dispersion and spread.polarizability_tables == alone.polarizability_tables
+
+
+@pytest.mark.slow
+def test_a_dask_local_cluster_gives_the_serial_numbers(helium, beryllium):
+    distributed = pytest.importorskip("distributed")
+    serial_result = dispersion_table([helium, beryllium], quadrature_points=16)
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cluster:
+        with DaskCluster(cluster.scheduler_address) as dask_map:
+            remote = dispersion_table([helium, beryllium], quadrature_points=16, map_tasks=dask_map)
+    assert remote == serial_result
