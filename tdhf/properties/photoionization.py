@@ -1,0 +1,456 @@
+r"""Photoionization above the first threshold: TDHF (RPA) cross sections, partial cross sections,
+autoionizing resonances, and the dipole sum rules over the whole spectrum.
+
+Conventions (atomic units: hartree, bohr; cross sections in bohr^2)
+-------------------------------------------------------------------
+* Total cross section, length form: :math:`\sigma(\omega) = (4\pi\omega/c)\,\mathrm{Im}\,\alpha_1(\omega)`
+  with the outgoing-wave :math:`\alpha_1` of :mod:`tdhf.response.continuum` and c = 1/fine-structure
+  constant (:data:`scipy.constants.fine_structure`); hydrogen at threshold: :math:`2^9\pi^2 e^{-4}/(3c)`
+  = 0.2251 bohr^2 = 6.30 Mb.
+* Velocity form: :math:`\alpha_V(\omega) = (R(\omega) - R(0))/\omega^2` from the right-hand sides
+  :math:`-\partial_z\phi_a` (see :meth:`tdhf.response.solver.ResponseSolver.velocity_polarizability`), so
+  :math:`\sigma_V = (4\pi/(c\,\omega))\,\mathrm{Im}\,R(\omega)`; equal to the length form in RPA.
+* Uncoupled: the same with no induced Coulomb and exchange terms, i.e. the V^N continuum of the
+  ground-state Fock operator (the photoelectron sees the neutral atom, no hole attraction).
+* Oscillator-strength density :math:`df/d\omega = c\,\sigma/(2\pi^2)` per hartree; it continues the
+  bound lines f_n (:mod:`tdhf.properties.spectrum`) across the threshold.
+* Partial cross section of subshell a: the outgoing flux into its channels a -> l'.  For any
+  real radius X beyond the occupied orbitals the weighted channel currents add up exactly to
+  Im alpha (:meth:`ContinuumSolver.channel_flux`); long-range multipole couplings between channels
+  of different holes still exchange flux as :math:`\cos(\Delta k X)/X^2`, so the flux is averaged
+  with the window :math:`\sin^2(\pi (X - R_i)/(R_0 - R_i))` over the element boundaries of the real
+  region [R_i, R_0] (60 bohr by default: within ~1e-5 of the X -> infinity limit for Ar, measured
+  against X up to 300 bohr).  Only subshells whose threshold lies below the photon energy are
+  listed; a closed channel's transient flux at finite X is left out, so the listed partial
+  cross sections add up to the total up to that (small) remainder.
+* Thresholds: :math:`I_a = -\varepsilon_a` (Koopmans), where channel a opens in TDHF.
+* Resonances: complex poles :math:`E - i\Gamma/2` of :math:`\alpha_1(\omega)` continued below the real
+  axis (exterior complex scaling exposes the second sheet); ``width`` is the full width Gamma.
+
+Sum rules over the whole spectrum
+---------------------------------
+:math:`S(k) = \sum_n f_n\omega_n^k + \int_{I_1}^\infty \frac{df}{d\omega}\omega^k d\omega
+= \frac{2}{\pi}\int_0^\infty \omega^{k+1}\,\mathrm{Im}\,\alpha_1(\omega + i0)\,d\omega`, and the
+Kramers–Kronig relation :math:`\alpha(i\nu) = \frac{2}{\pi}\int_0^\infty
+\frac{\omega\,\mathrm{Im}\,\alpha(\omega)}{\omega^2+\nu^2}d\omega`.  Both are
+:math:`\frac{2}{\pi}\mathrm{Im}\int\alpha(\omega)\,\omega\,g(\omega)\,d\omega` with g real on the real
+axis and analytic in the upper half plane, where :math:`\alpha` is analytic too, so by Cauchy's
+theorem the real-axis integral may be taken along any path in the upper half plane with the same
+end points.  It is split into
+
+* **bound**: the bound lines below I_1, as the integral along a half-ellipse from I_1/2 (below the
+  first excitation) to I_1 (an infinite Rydberg series accumulates at I_1 and cannot be summed
+  line by line; approached off the real axis its contribution is smooth);
+* **continuum**: the real axis from I_1 up to :math:`\Omega_c` (the actual cross sections), with a
+  semicircular detour over each inner threshold and the autoionizing Rydberg series below it;
+* **remainder**: everything above :math:`\Omega_c` (all inner shells), along the vertical line
+  :math:`\Omega_c + iy`; there :math:`-N/\omega^2`, the exact high-frequency limit (real on the real
+  axis, so it adds nothing to the real-axis integral), is subtracted from :math:`\alpha` so that the
+  arc at infinity vanishes.
+
+References: S(0) = N (Thomas–Reiche–Kuhn, exact in RPA), S(-2) = alpha(0), S(-1) =
+:math:`(2/\pi)\int_0^\infty\alpha(i\nu)d\nu`, each from direct solves at zero and imaginary
+frequency.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Sequence
+
+import numpy as np
+from scipy.constants import fine_structure
+
+from tdhf.errors import InputError
+from tdhf.ground_state import GroundState
+from tdhf.numerics.threads import single_blas_thread
+from tdhf.properties.dispersion import imaginary_frequency_rule
+from tdhf.radial.exterior_scaling import ContinuumGridSettings
+from tdhf.response.continuum import ContinuumSolver, OutgoingWaveOrbitals, build_continuum_solver
+
+__all__ = [
+    "PhotoionizationSection",
+    "PartialCrossSection",
+    "PhotoionizationPoint",
+    "Resonance",
+    "Threshold",
+    "SpectralSumRule",
+    "KramersKronigCheck",
+    "ContinuumGrid",
+    "ContinuumSummary",
+    "PhotoionizationResults",
+    "ContinuumPolarizability",
+    "compute_photoionization",
+    "continuum_polarizabilities",
+    "continuum_polarizability",
+    "SPEED_OF_LIGHT",
+    "CROSS_SECTION_CONVENTION",
+]
+
+#: c in atomic units (1/alpha): the physics constant of sigma = 4 pi omega Im alpha / c.
+SPEED_OF_LIGHT = 1.0 / fine_structure
+
+CROSS_SECTION_CONVENTION = (
+    "sigma = (4 pi omega / c) Im alpha_1(omega) in bohr^2 (length form; velocity form from -d/dz; uncoupled:"
+    " V^N continuum of the ground-state Fock operator); partial: outgoing flux into the channels of each open"
+    " subshell; df/domega = c sigma / (2 pi^2) per hartree; resonances: poles E - i width/2, hartree"
+)
+
+#: Relative residual above which a coupled solve counts as not converged (as for the bound response).
+COUPLING_RESIDUAL = 1e-8
+#: A photon energy must exceed the first threshold by this relative margin (k = 0 is not a solve).
+THRESHOLD_MARGIN = 1e-9
+
+
+@dataclass(frozen=True)
+class PhotoionizationSection:
+    """``[photoionization]``: fixed photon energies and/or an adaptive ``range`` (hartree).
+
+    ``sum_rules``: also evaluate S(0), S(-1), S(-2) over bound lines and continuum and the
+    Kramers–Kronig check (~150 extra solves).
+    """
+
+    photon_energies: tuple[float, ...] = ()
+    range: tuple[float, float] | None = None
+    sum_rules: bool = True
+
+
+@dataclass(frozen=True)
+class PartialCrossSection:
+    """Cross section into the channels of one hole subshell (bohr^2)."""
+
+    subshell: str
+    cross_section: float
+
+
+@dataclass(frozen=True)
+class PhotoionizationPoint:
+    """Everything at one photon energy (hartree); cross sections in bohr^2.
+
+    ``polarizability`` and ``polarizability_imaginary_part`` are the coupled complex alpha_1
+    (bohr^3).  ``converged`` covers both coupled solves (length and velocity).
+    """
+
+    photon_energy: float
+    cross_section: float
+    cross_section_velocity: float
+    cross_section_uncoupled: float
+    partial: tuple[PartialCrossSection, ...]
+    oscillator_strength_density: float
+    polarizability: float
+    polarizability_imaginary_part: float
+    converged: bool
+    krylov_iterations: int
+    residual: float
+
+
+@dataclass(frozen=True)
+class Resonance:
+    """An autoionizing resonance: pole E - i Gamma/2 of alpha_1 (hartree); ``subshell`` is the hole."""
+
+    energy: float
+    width: float
+    subshell: str
+
+
+@dataclass(frozen=True)
+class Threshold:
+    """Ionization threshold -epsilon_a of one subshell (hartree)."""
+
+    subshell: str
+    energy: float
+
+
+@dataclass(frozen=True)
+class SpectralSumRule:
+    """:math:`S(k) = \\sum_n f_n \\omega_n^k + \\int (df/d\\omega) \\omega^k d\\omega` by parts (module docstring).
+
+    ``exact``: N for k = 0; alpha(0) for k = -2; the imaginary-axis integral for k = -1.
+    """
+
+    k: int
+    bound: float
+    continuum: float
+    remainder: float
+    total: float
+    exact: float
+    relative_difference: float
+
+
+@dataclass(frozen=True)
+class KramersKronigCheck:
+    """alpha_1(i nu) rebuilt from the spectrum and solved directly (bohr^3); ``imaginary_frequency`` nu."""
+
+    imaginary_frequency: float
+    rebuilt: float
+    direct: float
+    relative_difference: float
+
+
+@dataclass(frozen=True)
+class ContinuumGrid:
+    """The scaled grid used (bohr, radians) and how its inner ground state compares with the given one."""
+
+    inner_radius: float
+    scaling_radius: float
+    scaling_angle: float
+    r_max: float
+    points: int
+    inner_points: int
+    order: int
+    largest_momentum: float
+    total_energy_difference: float
+
+
+@dataclass(frozen=True)
+class ContinuumSummary:
+    """Thresholds, whole-spectrum sum rules and Kramers–Kronig checks, and the grid."""
+
+    thresholds: tuple[Threshold, ...]
+    sum_rules: tuple[SpectralSumRule, ...]
+    kramers_kronig: tuple[KramersKronigCheck, ...]
+    grid: ContinuumGrid | None
+    convention: str = CROSS_SECTION_CONVENTION
+
+
+@dataclass(frozen=True)
+class PhotoionizationResults:
+    """The rows of a ``[photoionization]`` request."""
+
+    photoionization: tuple[PhotoionizationPoint, ...]
+    resonances: tuple[Resonance, ...]
+    continuum: ContinuumSummary
+    warnings: tuple[str, ...]
+    rejected: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class ContinuumPolarizability:
+    """Complex alpha_L at a real frequency above threshold (bohr^(2L+1)), with its solve status."""
+
+    multipole: int
+    frequency: float
+    coupled: bool
+    real_part: float
+    imaginary_part: float
+    converged: bool
+    krylov_iterations: int
+    residual: float
+
+
+# --------------------------------------------------------------------------------------------
+# Building blocks
+
+
+def thresholds(ground_state: GroundState) -> tuple[Threshold, ...]:
+    """Subshell thresholds -epsilon_a, lowest first."""
+    rows = [Threshold(o.label, -float(o.energy)) for o in ground_state.orbitals]
+    return tuple(sorted(rows, key=lambda row: row.energy))
+
+
+def _momenta(energies: Sequence[float], threshold_energies: Sequence[float]) -> tuple[float, float]:
+    """Largest and smallest photoelectron momentum over the open channels (bohr^-1)."""
+    largest, smallest = 0.0, math.inf
+    for omega in energies:
+        for threshold in threshold_energies:
+            if omega > threshold:
+                k = math.sqrt(2.0 * (omega - threshold))
+                largest, smallest = max(largest, k), min(smallest, k)
+    return largest, smallest
+
+
+class _Photoionization:
+    """One continuum solver with the pieces every photon energy needs."""
+
+    def __init__(self, solver: ContinuumSolver, ground_state: GroundState, labels: Sequence[str]) -> None:
+        self.solver = solver
+        self.labels = tuple(labels)
+        self.hole_energies = -np.asarray(solver.inner.orbital_energies)
+        self.velocity = solver.velocity_perturbation()
+        self.channel_shells = np.array([c.shell for c in solver.channels])
+        self.electrons = float(solver.inner.shells.occupations.sum())
+        grid = solver.grid
+        boundaries = grid.boundaries[(grid.boundaries >= solver.inner_radius) & (grid.boundaries <= grid.scaling_radius)]
+        self.flux_nodes = [grid.node_at(b) for b in boundaries]
+        span = grid.scaling_radius - solver.inner_radius
+        window = np.sin(np.pi * (boundaries - solver.inner_radius) / span) ** 2 if span > 0 else np.ones(1)
+        self.flux_weights = window / window.sum()
+
+    def point(self, omega: float) -> tuple[PhotoionizationPoint, complex]:
+        solver = self.solver
+        length = solver.solve(omega)
+        velocity = solver.solve(omega, rhs=(self.velocity, -self.velocity))
+        uncoupled = solver.solve(omega, coupled=False)
+        alpha = solver.polarizability(length)
+        factor = 4.0 * np.pi * omega / SPEED_OF_LIGHT
+        sigma = factor * alpha.imag
+        sigma_velocity = factor * solver.response(velocity, self.velocity, -1).imag / omega**2
+        flux = sum(w * solver.channel_flux(length, node) for w, node in zip(self.flux_weights, self.flux_nodes))
+        per_shell = np.bincount(self.channel_shells, weights=flux, minlength=len(self.labels))
+        partial = tuple(
+            PartialCrossSection(self.labels[a], float(factor * per_shell[a]))
+            for a in np.argsort(self.hole_energies) if self.hole_energies[a] < omega
+        )
+        residual = max(length.residual, velocity.residual)
+        row = PhotoionizationPoint(
+            photon_energy=float(omega),
+            cross_section=float(sigma),
+            cross_section_velocity=float(sigma_velocity),
+            cross_section_uncoupled=float(factor * solver.polarizability(uncoupled).imag),
+            partial=partial,
+            oscillator_strength_density=float(SPEED_OF_LIGHT * sigma / (2.0 * np.pi**2)),
+            polarizability=float(alpha.real),
+            polarizability_imaginary_part=float(alpha.imag),
+            converged=bool(residual <= COUPLING_RESIDUAL and np.isfinite(sigma) and np.isfinite(sigma_velocity)),
+            krylov_iterations=length.krylov_iterations + velocity.krylov_iterations,
+            residual=float(residual),
+        )
+        return row, alpha
+
+    def alpha(self, frequency: complex) -> tuple[complex, OutgoingWaveOrbitals]:
+        solution = self.solver.solve(frequency)
+        return self.solver.polarizability(solution), solution
+
+
+# --------------------------------------------------------------------------------------------
+# Sum rules over the whole spectrum (module docstring)
+
+#: Gauss–Legendre points of the bound half-ellipse, of each real-axis panel and of each detour.
+BOUND_POINTS = 32
+PANEL_POINTS = 10
+DETOUR_POINTS = 24
+#: Largest width of a real-axis panel, hartree.
+PANEL_WIDTH = 0.25
+#: Points of the vertical line above Omega_c and of the imaginary-axis integral for S(-1).
+REMAINDER_POINTS = 56
+#: Kramers–Kronig checks at nu = these multiples of the first threshold.
+KRAMERS_KRONIG_MULTIPLES = (0.5, 1.0, 2.0)
+#: The detour below an inner threshold I_b starts this factor times the binding of the lowest
+#: bare resonance of hole b (the lowest eigenvalue of its channel operator with the hole potential)
+#: below I_b: room for the shift the RPA coupling gives the resonances.
+DETOUR_MARGIN = 1.3
+
+
+@dataclass(frozen=True)
+class _Contour:
+    """Quadrature nodes and weights (d omega, complex) of the three parts of the path."""
+
+    nodes: np.ndarray
+    weights: np.ndarray
+    parts: np.ndarray  # 0 bound, 1 continuum (real axis and detours), 2 remainder (vertical line)
+    end: float  # Omega_c
+
+
+def _gauss(points: int) -> tuple[np.ndarray, np.ndarray]:
+    return np.polynomial.legendre.leggauss(points)
+
+
+def _half_ellipse(left: float, right: float, height: float, points: int) -> tuple[np.ndarray, np.ndarray]:
+    """omega(phi) = c - A cos(phi) + i H sin(phi), phi in (0, pi): from ``left`` to ``right`` above the axis."""
+    x, w = _gauss(points)
+    phi = 0.5 * np.pi * (x + 1.0)
+    centre, axis = 0.5 * (left + right), 0.5 * (right - left)
+    nodes = centre - axis * np.cos(phi) + 1j * height * np.sin(phi)
+    weights = 0.5 * np.pi * w * (axis * np.sin(phi) + 1j * height * np.cos(phi))
+    return nodes, weights
+
+
+def _real_panels(left: float, right: float) -> tuple[np.ndarray, np.ndarray]:
+    count = max(1, int(math.ceil((right - left) / PANEL_WIDTH)))
+    x, w = _gauss(PANEL_POINTS)
+    edges = np.linspace(left, right, count + 1)
+    nodes = [0.5 * (a + b) + 0.5 * (b - a) * x for a, b in zip(edges[:-1], edges[1:])]
+    weights = [0.5 * (b - a) * w for a, b in zip(edges[:-1], edges[1:])]
+    return np.concatenate(nodes).astype(complex), np.concatenate(weights).astype(complex)
+
+
+def _detours(solver: ContinuumSolver, first: float, inner_thresholds: Sequence[float], end: float) -> list[tuple[float, float]]:
+    """Intervals [I_b - Delta_b, I_b + delta_b] of the inner thresholds below ``end``, merged."""
+    operators = solver._channel_operators(True)
+    holes = -np.asarray(solver.inner.orbital_energies)
+    intervals = []
+    ordered = sorted(set(float(t) for t in inner_thresholds))
+    for i, threshold in enumerate(ordered):
+        if threshold >= end:
+            break
+        lowest = min(float(op.values.min()) for op, c in zip(operators, solver.channels)
+                     if abs(holes[c.shell] - threshold) <= 1e-9 * threshold)
+        depth = DETOUR_MARGIN * max(-lowest, 0.02)
+        following = ordered[i + 1] if i + 1 < len(ordered) else math.inf
+        left = max(first + 0.05 * (threshold - first), threshold - depth)
+        right = threshold + min(0.1 * depth, 0.25 * (following - threshold))
+        if intervals and left <= intervals[-1][1]:
+            intervals[-1] = (intervals[-1][0], right)
+        else:
+            intervals.append((left, right))
+    return intervals
+
+
+def _sum_rule_contour(solver: ContinuumSolver, threshold_energies: Sequence[float]) -> _Contour:
+    first = float(min(threshold_energies))
+    height = 0.5 * min(KRAMERS_KRONIG_MULTIPLES) * first
+    pieces = [(*_half_ellipse(0.5 * first, first, min(0.25 * first, height), BOUND_POINTS), 0)]
+    end = max(3.0 * first, first + 1.0)
+    inner = [t for t in threshold_energies if t > first * (1.0 + 1e-12)]
+    detours = _detours(solver, first, inner, end)
+    for left, right in detours:  # an end inside a detour moves to the detour's end
+        if left < end < right:
+            end = right + 0.5 * PANEL_WIDTH
+    start = first
+    for left, right in [d for d in detours if d[1] < end]:
+        pieces.append((*_real_panels(start, left), 1))
+        pieces.append((*_half_ellipse(left, right, min(0.5 * (right - left), height), DETOUR_POINTS), 1))
+        start = right
+    pieces.append((*_real_panels(start, end), 1))
+    y, w = imaginary_frequency_rule(REMAINDER_POINTS, _frequency_scale(threshold_energies))
+    pieces.append((end + 1j * y, 1j * w, 2))
+    return _Contour(
+        nodes=np.concatenate([p[0] for p in pieces]),
+        weights=np.concatenate([p[1] for p in pieces]),
+        parts=np.concatenate([np.full(p[0].size, p[2]) for p in pieces]),
+        end=end,
+    )
+
+
+def _frequency_scale(threshold_energies: Sequence[float]) -> float:
+    """Scale of the (1+t)/(1-t) map for integrals out to infinity: the geometric mean of the
+    lowest and highest thresholds, which centres the nodes on the spread of the spectrum."""
+    return float(np.sqrt(min(threshold_energies) * max(threshold_energies)))
+
+
+def _spectral_integrals(contour: _Contour, alpha: np.ndarray, electrons: float, g) -> tuple[float, float, float]:
+    """(2/pi) Im of the integral of alpha omega g(omega) over each part of the contour."""
+    nodes, weights = contour.nodes, contour.weights
+    values = np.where(contour.parts == 2, alpha + electrons / nodes**2, alpha) * nodes * g(nodes) * weights
+    return tuple(float(2.0 / np.pi * values[contour.parts == part].sum().imag) for part in (0, 1, 2))
+
+
+def _sum_rules(state: _Photoionization, threshold_energies: Sequence[float], notes: list[str]):
+    solver = state.solver
+    contour = _sum_rule_contour(solver, threshold_energies)
+    alpha = np.empty(contour.nodes.size, dtype=complex)
+    worst = 0.0
+    for j, omega in enumerate(contour.nodes):
+        alpha[j], solution = state.alpha(complex(omega))
+        worst = max(worst, solution.residual)
+    first = float(min(threshold_energies))
+    nu_nodes, nu_weights = imaginary_frequency_rule(REMAINDER_POINTS, _frequency_scale(threshold_energies))
+    on_axis = np.array([state.alpha(1j * nu)[0].real for nu in nu_nodes])
+    static = state.alpha(0.0)[0].real
+    exact = {0: state.electrons, -1: float(2.0 / np.pi * nu_weights @ on_axis), -2: static}
+    rules = []
+    for k in (0, -1, -2):
+        bound, continuum, remainder = _spectral_integrals(contour, alpha, state.electrons, lambda w, k=k: w**k)
+        total = bound + continuum + remainder
+        rules.append(SpectralSumRule(k, bound, continuum, remainder, total, exact[k], abs(total - exact[k]) / abs(exact[k])))
+    checks = []
+    for multiple in KRAMERS_KRONIG_MULTIPLES:
+        nu = multiple * first
+        rebuilt = sum(_spectral_integrals(contour, alpha, state.electrons, lambda w, nu=nu: 1.0 / (w**2 + nu**2)))
+        direct = state.alpha(1j * nu)[0].real
+        checks.append(KramersKronigCheck(nu, rebuilt, direct, abs(rebuilt - direct) / abs(direct)))
+    if worst > COUPLING_RESIDUAL:
+        notes.append(f"photoionization.sum_rules: a coupled solve on the sum-rule path stopped at residual {worst:.1e};"
+                     " the sums are not converged")
+    return tuple(rules), tuple(checks), contour.end
