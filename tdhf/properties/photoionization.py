@@ -56,7 +56,8 @@ frequency.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
+from dataclasses import replace as dataclasses_replace
 from typing import Sequence
 
 import numpy as np
@@ -454,3 +455,270 @@ def _sum_rules(state: _Photoionization, threshold_energies: Sequence[float], not
         notes.append(f"photoionization.sum_rules: a coupled solve on the sum-rule path stopped at residual {worst:.1e};"
                      " the sums are not converged")
     return tuple(rules), tuple(checks), contour.end
+
+
+# --------------------------------------------------------------------------------------------
+# Adaptive photon-energy grid and resonances
+
+#: Initial points of an adaptive range (spread over its segments between thresholds).
+RANGE_POINTS = 40
+#: Refine an interval while two quadratic interpolants disagree at its midpoint by more than this
+#: fraction of the local cross section (floored at 1e-3 of the largest one in the range).
+RANGE_TOLERANCE = 1e-3
+#: Most points of an adaptive range; the smallest interval, relative to the range.
+RANGE_MAX_POINTS = 400
+RANGE_MIN_SPACING = 1e-4
+#: Secant steps and relative tolerance of a resonance pole.
+POLE_STEPS = 30
+POLE_TOLERANCE = 1e-10
+
+
+def _segments(low: float, high: float, threshold_energies: Sequence[float]) -> list[tuple[float, float]]:
+    """[low, high] cut at the thresholds inside it (a threshold is a kink of sigma)."""
+    cuts = sorted(t for t in set(threshold_energies) if low < t < high)
+    edges = [low] + [x for t in cuts for x in (t * (1.0 - 1e-7), t * (1.0 + 1e-7))] + [high]
+    return [(a, b) for a, b in zip(edges[::2], edges[1::2])]
+
+
+def _disagreement(x: np.ndarray, y: np.ndarray, i: int) -> float:
+    """|left quadratic - right quadratic| at the midpoint of [x_i, x_i+1] (linear where a side is missing)."""
+    middle = 0.5 * (x[i] + x[i + 1])
+    estimates = []
+    for j in (i - 1, i):
+        if 0 <= j and j + 2 < x.size:
+            estimates.append(np.polyval(np.polyfit(x[j:j + 3] - middle, y[j:j + 3], 2), 0.0))
+    if len(estimates) == 1:
+        estimates.append(0.5 * (y[i] + y[i + 1]))
+    return abs(estimates[0] - estimates[1]) if len(estimates) == 2 else 0.0
+
+
+def _adaptive_range(state: _Photoionization, low: float, high: float, threshold_energies: Sequence[float]):
+    """Rows on a grid refined where sigma changes fast; returns {omega: (row, alpha)}."""
+    samples: dict[float, tuple[PhotoionizationPoint, complex]] = {}
+    segments = _segments(low, high, threshold_energies)
+    total = sum(b - a for a, b in segments)
+    for a, b in segments:
+        count = max(3, int(round(RANGE_POINTS * (b - a) / total)))
+        for omega in np.linspace(a, b, count):
+            samples[float(omega)] = state.point(float(omega))
+    spacing = RANGE_MIN_SPACING * (high - low)
+    while len(samples) < RANGE_MAX_POINTS:
+        largest = max(abs(row.cross_section) for row, _ in samples.values())
+        new = []
+        for a, b in segments:
+            x = np.array(sorted(w for w in samples if a <= w <= b))
+            y = np.array([samples[w][0].cross_section for w in x])
+            for i in range(x.size - 1):
+                scale = max(abs(y[i]), abs(y[i + 1]), 1e-3 * largest)
+                if x[i + 1] - x[i] > spacing and _disagreement(x, y, i) > RANGE_TOLERANCE * scale:
+                    new.append(0.5 * (x[i] + x[i + 1]))
+        if not new:
+            break
+        for omega in new[: RANGE_MAX_POINTS - len(samples)]:
+            samples[float(omega)] = state.point(float(omega))
+    return samples
+
+
+def _pade_pole(omegas: np.ndarray, alphas: np.ndarray) -> complex | None:
+    """Pole p of the [2/1] fit alpha (omega - p) = c0 + c1 omega + c2 omega^2 (least squares)."""
+    centre = float(omegas.mean())
+    x = omegas - centre
+    design = np.column_stack([np.ones_like(x), x, x**2, alphas]).astype(complex)
+    solution, *_ = np.linalg.lstsq(design, alphas * x, rcond=None)
+    pole = complex(solution[3])
+    return centre + pole if np.isfinite(pole) else None
+
+
+def _refine_resonance(state: _Photoionization, guess: complex) -> complex | None:
+    """Secant on 1/alpha in the complex plane (below the real axis: ECS exposes the second sheet)."""
+    step = 0.05 * max(abs(guess.imag), 1e-6)
+    x0, x1 = guess, guess + step
+    g0, g1 = 1.0 / state.alpha(x0)[0], 1.0 / state.alpha(x1)[0]
+    for _ in range(POLE_STEPS):
+        if g1 == g0:
+            return None
+        x2 = x1 - g1 * (x1 - x0) / (g1 - g0)
+        if not np.isfinite(x2) or abs(x2 - guess) > 20.0 * max(abs(guess.imag), step):
+            return None
+        if abs(x2 - x1) <= POLE_TOLERANCE * abs(x2):
+            return x2 if x2.imag < 0.0 else None
+        x0, g0 = x1, g1
+        x1, g1 = x2, 1.0 / state.alpha(x2)[0]
+    return None
+
+
+def _resonance_subshell(state: _Photoionization, pole: complex) -> str:
+    """The hole whose closed channels carry the resonance: the largest weighted rho+ near the pole."""
+    _, solution = state.alpha(pole + 1j * 0.1 * abs(pole.imag))
+    inner = solution.plus[:, : state.solver.n_inner]
+    weights = np.array([c.weight for c in state.solver.channels]) * np.sum(np.abs(inner) ** 2, axis=1)
+    closed = state.hole_energies[state.channel_shells] > pole.real
+    weights = np.where(closed, weights, 0.0) if closed.any() else weights
+    amount = np.bincount(state.channel_shells, weights=weights, minlength=len(state.labels))
+    return state.labels[int(np.argmax(amount))]
+
+
+def _resonances(state: _Photoionization, samples: dict, low: float, high: float) -> tuple[Resonance, ...]:
+    """Poles behind the sharp features of an adaptive range."""
+    x = np.array(sorted(samples))
+    y = np.array([samples[w][0].cross_section for w in x])
+    alpha = np.array([samples[w][1] for w in x])
+    typical = (high - low) / RANGE_POINTS
+    found: list[complex] = []
+    for i in range(1, x.size - 1):
+        local = min(x[i] - x[i - 1], x[i + 1] - x[i])
+        extremum = (y[i] - y[i - 1]) * (y[i + 1] - y[i]) < 0.0
+        if not extremum or local > typical / 8.0:
+            continue
+        near = np.argsort(np.abs(x - x[i]))[:8]
+        guess = _pade_pole(x[near], alpha[near])
+        if guess is None or guess.imag >= 0.0 or not low <= guess.real <= high:
+            continue
+        pole = _refine_resonance(state, guess)
+        if pole is None or not low <= pole.real <= high:
+            continue
+        if all(abs(pole - other) > 1e-3 * abs(pole.imag) + 1e-9 * abs(pole) for other in found):
+            found.append(pole)
+    return tuple(
+        Resonance(float(p.real), float(-2.0 * p.imag), _resonance_subshell(state, p)) for p in sorted(found, key=lambda p: p.real)
+    )
+
+
+# --------------------------------------------------------------------------------------------
+# Entry points
+
+#: Smallest photoelectron momentum the scaled region is sized for (the sum-rule path starts at
+#: the threshold itself, where the Coulomb tail keeps the waves absorbed), bohr^-1.
+SMALLEST_MOMENTUM = 0.02
+
+
+def _solver_for(ground_state: GroundState, multipole: int, energies: Sequence[float],
+                settings: ContinuumGridSettings, notes: list[str]) -> tuple[ContinuumSolver, ContinuumGrid, bool]:
+    """A continuum solver sized for ``energies``, with the grid summary and whether its SCF converged."""
+    threshold_energies = [-float(o.energy) for o in ground_state.orbitals]
+    largest, smallest = _momenta(energies, threshold_energies)
+    solver, scf = build_continuum_solver(
+        ground_state.system, ground_state.homo_energy, multipole, max(largest, 1.0),
+        max(min(smallest, SMALLEST_MOMENTUM), 1e-3), settings, ground_state.scf_settings,
+    )
+    difference = scf.total_energy - ground_state.total_energy
+    if not scf.converged:
+        notes.append(f"photoionization: the ground state on the continuum grid did not converge"
+                     f" (orbital change {scf.residual:.1e}); every continuum number is flagged")
+    elif abs(difference) > 1e-8 * abs(ground_state.total_energy):
+        notes.append(f"photoionization: the ground state on the continuum grid differs by {difference:.1e} hartree"
+                     " from the given one; refine [grid] or the continuum grid")
+    grid = solver.grid
+    info = ContinuumGrid(solver.inner_radius, grid.scaling_radius, grid.angle, grid.r_max, grid.size,
+                         solver.n_inner, grid.order, float(largest), float(difference))
+    return solver, info, scf.converged
+
+
+def _accepted(section: PhotoionizationSection, first: float, first_label: str,
+              rejected: list[str]) -> tuple[list[float], tuple[float, float] | None]:
+    """Photon energies above the first threshold; the others become one-line refusals."""
+    where = (f"the first ionization threshold {first:.6f} hartree ({first_label} hole); bound lines"
+             " below it are the excitations of [response] (list `excitations`)")
+    energies = []
+    for i, omega in enumerate(section.photon_energies):
+        if omega <= first * (1.0 + THRESHOLD_MARGIN):
+            rejected.append(f"photoionization.photon_energies[{i}]: {omega:g} hartree is not above {where}")
+        else:
+            energies.append(float(omega))
+    window = None
+    if section.range is not None:
+        low, high = section.range
+        if high <= first * (1.0 + THRESHOLD_MARGIN):
+            rejected.append(f"photoionization.range: [{low:g}, {high:g}] hartree lies below {where}")
+        else:
+            if low <= first * (1.0 + THRESHOLD_MARGIN):
+                rejected.append(f"photoionization.range[0]: {low:g} hartree is not above {where};"
+                                " the range is computed from just above the threshold")
+                low = first * (1.0 + 1e-4)
+            window = (float(low), float(high))
+    return energies, window
+
+
+@single_blas_thread
+def compute_photoionization(
+    ground_state: GroundState,
+    section: PhotoionizationSection,
+    settings: ContinuumGridSettings = ContinuumGridSettings(),
+) -> PhotoionizationResults:
+    """Dipole photoionization of a solved closed-shell atom (module docstring for the conventions).
+
+    Photon energies at or below the first threshold are refused (``rejected``, one line each,
+    naming the deck key); the others are computed.  The continuum grid is sized for the largest
+    photoelectron momentum requested (and the sum-rule path).
+    """
+    notes: list[str] = []
+    rejected: list[str] = []
+    ordered = thresholds(ground_state)
+    first = ordered[0]
+    energies, window = _accepted(section, first.energy, first.subshell, rejected)
+    wanted = energies + (list(window) if window else [])
+    if section.sum_rules:
+        wanted.append(max(3.0 * first.energy, first.energy + 1.0) + 1.0)
+    if not wanted:
+        return PhotoionizationResults((), (), ContinuumSummary(ordered, (), (), None), tuple(notes), tuple(rejected))
+    solver, grid, scf_converged = _solver_for(ground_state, 1, wanted, settings, notes)
+    state = _Photoionization(solver, ground_state, [o.label for o in ground_state.orbitals])
+    threshold_energies = [float(t) for t in state.hole_energies]
+    rows = [state.point(omega)[0] for omega in energies]
+    resonances: tuple[Resonance, ...] = ()
+    if window:
+        samples = _adaptive_range(state, *window, threshold_energies)
+        rows += [samples[omega][0] for omega in sorted(samples)]
+        resonances = _resonances(state, samples, *window)
+        if len(samples) >= RANGE_MAX_POINTS:
+            notes.append(f"photoionization.range: stopped refining at {RANGE_MAX_POINTS} photon energies;"
+                         " narrow structures may be under-resolved")
+    if not scf_converged:
+        rows = [dataclasses_replace(row, converged=False) for row in rows]
+    unconverged = [row.photon_energy for row in rows if not row.converged]
+    if unconverged and scf_converged:
+        notes.append(f"photoionization: {len(unconverged)} photon energies did not converge (GMRES), e.g."
+                     f" {unconverged[0]:g} hartree; their rows are flagged")
+    sum_rules, checks = (), ()
+    if section.sum_rules:
+        sum_rules, checks, _ = _sum_rules(state, threshold_energies, notes)
+    summary = ContinuumSummary(ordered, sum_rules, checks, grid)
+    return PhotoionizationResults(tuple(rows), resonances, summary, tuple(notes), tuple(rejected))
+
+
+@single_blas_thread
+def continuum_polarizabilities(
+    ground_state: GroundState,
+    multipole: int,
+    frequencies: Sequence[float],
+    coupled: bool = True,
+    settings: ContinuumGridSettings = ContinuumGridSettings(),
+) -> tuple[ContinuumPolarizability, ...]:
+    """Complex alpha_L at real frequencies (hartree), any of them above the ionization threshold.
+
+    One scaled grid serves all frequencies.  ``converged`` is False for a coupled solve that
+    stopped above the residual limit, or when the ground state on the continuum grid failed.
+    """
+    if isinstance(multipole, bool) or not isinstance(multipole, int) or multipole < 1:
+        raise InputError(f"multipole: {multipole!r} is not an integer >= 1")
+    for omega in frequencies:
+        if not (isinstance(omega, (int, float)) and math.isfinite(omega) and omega >= 0.0):
+            raise InputError(f"frequency: {omega!r} is not a finite number >= 0 (hartree)")
+    solver, _, scf_converged = _solver_for(ground_state, multipole, frequencies, settings, [])
+    rows = []
+    for omega in frequencies:
+        solution = solver.solve(float(omega), coupled)
+        value = solver.polarizability(solution)
+        rows.append(ContinuumPolarizability(
+            multipole, float(omega), bool(coupled), float(value.real), float(value.imag),
+            bool(scf_converged and solution.residual <= COUPLING_RESIDUAL and np.isfinite(value)),
+            solution.krylov_iterations, float(solution.residual),
+        ))
+    return tuple(rows)
+
+
+def continuum_polarizability(
+    ground_state: GroundState, multipole: int, frequency: float, coupled: bool = True
+) -> ContinuumPolarizability:
+    """Complex alpha_L(omega) at one real frequency, e.g. above the ionization threshold (bohr^(2L+1))."""
+    return continuum_polarizabilities(ground_state, multipole, (frequency,), coupled)[0]

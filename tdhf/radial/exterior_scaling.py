@@ -176,7 +176,7 @@ class ContinuumGridSettings:
     first_element: float | None = None
     resolution: float | None = None
     angle: float = 0.8
-    extension: float = 0.0
+    extension: float = 60.0
     absorbing_length: float = 120.0
     scaled_growth: float = 1.4
 
