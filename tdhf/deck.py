@@ -67,6 +67,7 @@ from tdhf.radial.mesh import GridSettings
 from tdhf.scf import ScfSettings
 from tdhf.system import System
 from tdhf.properties.dispersion import DEFAULT_QUADRATURE_POINTS, QUADRATURE_RANGE
+from tdhf.properties.photoionization import PhotoionizationSection
 
 __all__ = [
     "SCHEMA_VERSION",
@@ -79,6 +80,7 @@ __all__ = [
     "build_deck",
     "format_deck",
     "parse_system_name",
+    "parse_photoionization",
 ]
 
 #: The only deck format version so far.
@@ -136,6 +138,7 @@ class Deck:
     response: ResponseSection | None = None
     dispersion: DispersionSection | None = None
     schema: int = SCHEMA_VERSION
+    photoionization: PhotoionizationSection | None = None
 
 
 # --------------------------------------------------------------------------------------------
@@ -202,7 +205,10 @@ def build_deck(data: Mapping[str, Any]) -> Deck:
     scf = _scf(_table("scf", data.get("scf", {})))
     response = _response(_table("response", data["response"])) if "response" in data else None
     dispersion = _dispersion(_table("dispersion", data["dispersion"])) if "dispersion" in data else None
-    return Deck(atom=atom, grid=grid, scf=scf, response=response, dispersion=dispersion, schema=schema)
+    photoionization = (parse_photoionization(_table("photoionization", data["photoionization"]))
+                       if "photoionization" in data else None)
+    return Deck(atom=atom, grid=grid, scf=scf, response=response, dispersion=dispersion, schema=schema,
+                photoionization=photoionization)
 
 
 def _atom(table: Mapping[str, Any]) -> AtomSection:
@@ -369,7 +375,7 @@ def format_deck(deck: Deck) -> str:
     True
     """
     lines = [f"schema = {deck.schema}"]
-    for name in ("atom", "grid", "scf", "response", "dispersion"):
+    for name in ("atom", "grid", "scf", "response", "dispersion", "photoionization"):
         section = getattr(deck, name)
         if section is None:
             continue
@@ -396,7 +402,7 @@ def _toml_value(value: Any) -> str:
 # Checks shared by the tables
 
 
-_TOP_LEVEL = ("schema", "atom", "grid", "scf", "response", "dispersion")
+_TOP_LEVEL = ("schema", "atom", "grid", "scf", "response", "dispersion", "photoionization")
 _TABLES = _TOP_LEVEL[1:]
 
 
@@ -496,3 +502,39 @@ def _unique(path: str, values: list[Any]) -> tuple[Any, ...]:
 
 def _quoted(names: Mapping[str, Any] | tuple[str, ...]) -> str:
     return ", ".join(f'"{name}"' for name in names)
+
+
+# --------------------------------------------------------------------------------------------
+# [photoionization]
+
+
+def parse_photoionization(table: Mapping[str, Any]) -> PhotoionizationSection:
+    """``[photoionization]``: ``photon_energies = [...]`` and/or ``range = [low, high]`` (hartree).
+
+    Photon energies at or below the first ionization threshold are refused when the atom has
+    been solved (the threshold is not known before); here only the form is checked.
+
+    >>> parse_photoionization({"range": [0.6, 5.0]}).range
+    (0.6, 5.0)
+    """
+    _check_keys("photoionization", table, _field_names(PhotoionizationSection))
+    if "photon_energies" not in table and "range" not in table:
+        raise DeckError("photoionization: give photon_energies = [...] (hartree) or range = [low, high]"
+                        " for an adaptive grid")
+    energies = []
+    for i, item in enumerate(_array("photoionization.photon_energies", table.get("photon_energies", []), True)):
+        energy = _number(f"photoionization.photon_energies[{i}]", item)
+        if energy <= 0.0:
+            raise DeckError(f"photoionization.photon_energies[{i}]: {energy!r} is not > 0; photon energies are"
+                            " in hartree")
+        energies.append(energy)
+    window = None
+    if "range" in table:
+        bounds = _array("photoionization.range", table["range"], allow_empty=False)
+        values = [_number(f"photoionization.range[{i}]", item) for i, item in enumerate(bounds)]
+        if len(values) != 2 or not 0.0 < values[0] < values[1]:
+            raise DeckError(f"photoionization.range: {_toml_value(values)} is not [low, high] with"
+                            " 0 < low < high (hartree)")
+        window = (values[0], values[1])
+    sum_rules = _boolean("photoionization.sum_rules", table.get("sum_rules", PhotoionizationSection.sum_rules))
+    return PhotoionizationSection(_unique("photoionization.photon_energies", energies), window, sum_rules)

@@ -28,6 +28,7 @@ from typing import Any, Callable
 from tdhf.deck import Deck, DispersionSection, ResponseSection, parse_system_name
 from tdhf.ground_state import GroundState, solve_ground_state
 from tdhf.properties.dispersion import compute_dispersion, dispersion_table
+from tdhf.properties.photoionization import CROSS_SECTION_CONVENTION, compute_photoionization
 from tdhf.properties.response_properties import NORMALIZATION, compute_response
 from tdhf.radial.mesh import GridSettings
 from tdhf.report.serialize import to_jsonable
@@ -63,6 +64,7 @@ class Conventions:
         "C6 = (3/pi) int a1 a1, C8 = (15/(2 pi)) int (a1 a2 + a2 a1), C10 = (14/pi) int (a1 a3 + a3 a1)"
         " + (35/pi) int a2 a2, a_L = alpha_L(i w)"
     )
+    photoionization: str = CROSS_SECTION_CONVENTION
 
 
 @dataclass(frozen=True)
@@ -91,6 +93,7 @@ class RunSettings:
     response: ResponseSection | None
     dispersion: DispersionSection | None
     schema: int
+    photoionization: Any = None
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -129,6 +132,9 @@ class RunResult:
     certification: tuple["Certification", ...] = ()
     warnings: tuple[str, ...] = ()
     rejected: tuple[str, ...] = ()
+    photoionization: tuple[Any, ...] = ()
+    resonances: tuple[Any, ...] = ()
+    continuum: Any = None
     settings: RunSettings
     program: ProgramInfo = field(default_factory=program_info)
     conventions: Conventions = field(default_factory=Conventions)
@@ -145,6 +151,10 @@ class RunResult:
             f"{self.atom.name}: coupled L={row.multipole} response at {row.frequency:g} hartree"
             f"{' (imaginary)' if row.imaginary else ''} did not converge (GMRES)"
             for row in self.polarizabilities
+            if not row.converged
+        ) + tuple(
+            f"{self.atom.name}: photoionization at {row.photon_energy:g} hartree did not converge"
+            for row in self.photoionization
             if not row.converged
         )
         return response + tuple(
@@ -242,7 +252,7 @@ def run_deck(deck: Deck, progress: Progress | None = None) -> RunResult:
     """
     report = progress or (lambda stage: None)
     system = deck.atom.to_system()
-    settings = RunSettings(deck.grid, deck.scf, deck.response, deck.dispersion, deck.schema)
+    settings = RunSettings(deck.grid, deck.scf, deck.response, deck.dispersion, deck.schema, deck.photoionization)
     for name in ("grid", "scf", "response", "dispersion"):
         logger.info("option %s: %s", name, getattr(settings, name))
     report(f"ground state of {system.name}")
@@ -264,6 +274,13 @@ def run_deck(deck: Deck, progress: Progress | None = None) -> RunResult:
             dispersion_fields, library_notes = _run_dispersion(ground_state, deck.dispersion, deck.grid, deck.scf, report)
             fields |= dispersion_fields
             notes += library_notes
+        if deck.photoionization is not None:
+            report(f"photoionization of {system.name}")
+            continuum = compute_photoionization(ground_state, deck.photoionization)
+            fields |= {"photoionization": continuum.photoionization, "resonances": continuum.resonances,
+                       "continuum": continuum.continuum,
+                       "rejected": tuple(fields.get("rejected", ())) + continuum.rejected}
+            notes += continuum.warnings
     for note in own_notes:
         warnings.warn(note, RuntimeWarning, stacklevel=2)
     return RunResult(atom=system, ground_state=ground_state, warnings=tuple(notes + own_notes),
@@ -333,13 +350,17 @@ def result_to_json(result: RunResult) -> dict[str, Any]:
     when it had no ``[dispersion]`` table; otherwise they are present, possibly empty.
     """
     data = to_jsonable(result)
-    if result.settings.response is None:
+    if result.settings.response is None and result.settings.photoionization is None:
         del data["rejected"]
+    if result.settings.response is None:
         for name in RESPONSE_FIELDS:
             del data[name]
     if result.settings.dispersion is None:
         del data["dispersion"]
         del data["polarizability_tables"]
+    if result.settings.photoionization is None:
+        for name in ("photoionization", "resonances", "continuum"):
+            del data[name]
     if not result.certification:
         del data["certification"]
     return data
