@@ -309,8 +309,9 @@ class _Photoionization:
         )
         return row, alpha
 
-    def alpha(self, frequency: complex) -> tuple[complex, OutgoingWaveOrbitals]:
-        solution = self.solver.solve(frequency)
+    def alpha(self, frequency: complex, max_cycles: int | None = None) -> tuple[complex, OutgoingWaveOrbitals]:
+        solution = (self.solver.solve(frequency) if max_cycles is None
+                    else self.solver.solve(frequency, max_cycles=max_cycles))
         return self.solver.polarizability(solution), solution
 
 
@@ -465,13 +466,16 @@ def _sum_rules(state: _Photoionization, threshold_energies: Sequence[float], not
 RANGE_POINTS = 40
 #: Refine an interval while two quadratic interpolants disagree at its midpoint by more than this
 #: fraction of the local cross section (floored at 1e-3 of the largest one in the range).
-RANGE_TOLERANCE = 1e-3
+RANGE_TOLERANCE = 1e-2
 #: Most points of an adaptive range; the smallest interval, relative to the range.
 RANGE_MAX_POINTS = 400
 RANGE_MIN_SPACING = 1e-4
-#: Secant steps and relative tolerance of a resonance pole.
+#: Secant steps of a resonance pole; it has settled when a step is below POLE_TOLERANCE times the
+#: half width.  Next to the pole the coupled equations are nearly singular and round-off caps
+#: the reachable residual, so those solves stop after POLE_CYCLES restart cycles.
 POLE_STEPS = 30
-POLE_TOLERANCE = 1e-10
+POLE_TOLERANCE = 1e-6
+POLE_CYCLES = 2
 
 
 def _segments(low: float, high: float, threshold_energies: Sequence[float]) -> list[tuple[float, float]]:
@@ -533,24 +537,28 @@ def _pade_pole(omegas: np.ndarray, alphas: np.ndarray) -> complex | None:
 def _refine_resonance(state: _Photoionization, guess: complex) -> complex | None:
     """Secant on 1/alpha in the complex plane (below the real axis: ECS exposes the second sheet)."""
     step = 0.05 * max(abs(guess.imag), 1e-6)
+
+    def inverse(x: complex) -> complex:
+        return 1.0 / state.alpha(x, POLE_CYCLES)[0]
+
     x0, x1 = guess, guess + step
-    g0, g1 = 1.0 / state.alpha(x0)[0], 1.0 / state.alpha(x1)[0]
+    g0, g1 = inverse(x0), inverse(x1)
     for _ in range(POLE_STEPS):
         if g1 == g0:
             return None
         x2 = x1 - g1 * (x1 - x0) / (g1 - g0)
         if not np.isfinite(x2) or abs(x2 - guess) > 20.0 * max(abs(guess.imag), step):
             return None
-        if abs(x2 - x1) <= POLE_TOLERANCE * abs(x2):
+        if abs(x2 - x1) <= POLE_TOLERANCE * abs(x2.imag):
             return x2 if x2.imag < 0.0 else None
         x0, g0 = x1, g1
-        x1, g1 = x2, 1.0 / state.alpha(x2)[0]
+        x1, g1 = x2, inverse(x2)
     return None
 
 
 def _resonance_subshell(state: _Photoionization, pole: complex) -> str:
     """The hole whose closed channels carry the resonance: the largest weighted rho+ near the pole."""
-    _, solution = state.alpha(pole + 1j * 0.1 * abs(pole.imag))
+    _, solution = state.alpha(pole + 1j * 0.1 * abs(pole.imag), POLE_CYCLES)
     inner = solution.plus[:, : state.solver.n_inner]
     weights = np.array([c.weight for c in state.solver.channels]) * np.sum(np.abs(inner) ** 2, axis=1)
     closed = state.hole_energies[state.channel_shells] > pole.real
