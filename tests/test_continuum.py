@@ -401,3 +401,12 @@ def test_neon_2s_autoionizing_resonances_form_a_rydberg_series(neon):
     reduced = widths * effective**3
     assert np.all(widths > 0) and widths[0] / widths[-1] > 5.0
     assert reduced.max() / reduced.min() < 1.1
+
+
+def test_two_workers_give_the_serial_numbers(helium):
+    """Common practice, no source: spreading the photon energies and the sum-rule frequencies over
+    processes runs the same computation (one BLAS thread each), so every number is bit-identical."""
+    section = PhotoionizationSection((1.0, 1.5, 3.0), (1.2, 1.3), True)
+    serial = compute_photoionization(helium, section)
+    parallel = compute_photoionization(helium, section, workers=2)
+    assert parallel.photoionization == serial.photoionization and parallel.continuum == serial.continuum

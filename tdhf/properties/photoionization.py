@@ -56,6 +56,8 @@ frequency.
 from __future__ import annotations
 
 import math
+import multiprocessing
+from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass
 from dataclasses import replace as dataclasses_replace
 from typing import Sequence
@@ -130,7 +132,8 @@ class PhotoionizationPoint:
     """Everything at one photon energy (hartree); cross sections in bohr^2.
 
     ``polarizability`` and ``polarizability_imaginary_part`` are the coupled complex alpha_1
-    (bohr^3).  ``converged`` covers both coupled solves (length and velocity).
+    (bohr^3).  ``converged`` covers both coupled solves (length and velocity, one Krylov solve
+    with ``krylov_iterations`` steps; ``residual`` the larger of the two).
     """
 
     photon_energy: float
@@ -268,6 +271,7 @@ class _Photoionization:
         self.solver = solver
         self.labels = tuple(labels)
         self.hole_energies = -np.asarray(solver.inner.orbital_energies)
+        self.length = solver.inner.perturbation()
         self.velocity = solver.velocity_perturbation()
         self.channel_shells = np.array([c.shell for c in solver.channels])
         self.electrons = float(solver.inner.shells.occupations.sum())
@@ -280,8 +284,8 @@ class _Photoionization:
 
     def point(self, omega: float) -> tuple[PhotoionizationPoint, complex]:
         solver = self.solver
-        length = solver.solve(omega)
-        velocity = solver.solve(omega, rhs=(self.velocity, -self.velocity))
+        length, velocity = solver.solve_together(
+            omega, ((self.length, self.length), (self.velocity, -self.velocity)))
         uncoupled = solver.solve(omega, coupled=False)
         alpha = solver.polarizability(length)
         factor = 4.0 * np.pi * omega / SPEED_OF_LIGHT
@@ -304,7 +308,7 @@ class _Photoionization:
             polarizability=float(alpha.real),
             polarizability_imaginary_part=float(alpha.imag),
             converged=bool(residual <= COUPLING_RESIDUAL and np.isfinite(sigma) and np.isfinite(sigma_velocity)),
-            krylov_iterations=length.krylov_iterations + velocity.krylov_iterations,
+            krylov_iterations=length.krylov_iterations,
             residual=float(residual),
         )
         return row, alpha
@@ -313,6 +317,68 @@ class _Photoionization:
         solution = (self.solver.solve(frequency) if max_cycles is None
                     else self.solver.solve(frequency, max_cycles=max_cycles))
         return self.solver.polarizability(solution), solution
+
+
+_WORKER_STATE: _Photoionization | None = None
+
+
+def _install(state: _Photoionization) -> None:
+    global _WORKER_STATE
+    _WORKER_STATE = state
+
+
+@single_blas_thread
+def _points_task(energies: Sequence[float]) -> list[tuple[PhotoionizationPoint, complex]]:
+    return [_WORKER_STATE.point(omega) for omega in energies]
+
+
+@single_blas_thread
+def _alphas_task(frequencies: Sequence[complex]) -> list[tuple[complex, float]]:
+    return [(value, solution.residual) for value, solution in map(_WORKER_STATE.alpha, frequencies)]
+
+
+class _Evaluator:
+    """Maps photon energies to rows and frequencies to alpha, serially or in ``workers`` processes.
+
+    Each worker gets the solver once (pickled at start-up) and then only lists of frequencies,
+    interleaved so that the shares cost alike; the numbers are those of the serial loop (the same
+    computation, one BLAS thread everywhere).
+    """
+
+    def __init__(self, state: _Photoionization, workers: int) -> None:
+        self.state = state
+        self.workers = workers
+        self._pool: ProcessPoolExecutor | None = None
+
+    def __enter__(self) -> "_Evaluator":
+        if self.workers > 1:
+            context = multiprocessing.get_context("spawn")  # no fork of a process with BLAS threads
+            self._pool = ProcessPoolExecutor(self.workers, mp_context=context, initializer=_install,
+                                             initargs=(self.state,))
+        return self
+
+    def __exit__(self, *exc) -> None:
+        if self._pool is not None:
+            self._pool.shutdown()
+
+    def _map(self, task, serial, items: Sequence) -> list:
+        if self._pool is None or len(items) < 2:
+            return [serial(item) for item in items]
+        shares = [list(items[i::self.workers]) for i in range(self.workers)]
+        results = list(self._pool.map(task, [share for share in shares if share]))
+        out = [None] * len(items)
+        for i, result in enumerate(results):
+            out[i::self.workers] = result
+        return out
+
+    def points(self, energies: Sequence[float]) -> list[tuple[PhotoionizationPoint, complex]]:
+        return self._map(_points_task, self.state.point, [float(omega) for omega in energies])
+
+    def alphas(self, frequencies: Sequence[complex]) -> list[tuple[complex, float]]:
+        def serial(frequency):
+            value, solution = self.state.alpha(frequency)
+            return value, solution.residual
+        return self._map(_alphas_task, serial, list(frequencies))
 
 
 # --------------------------------------------------------------------------------------------
@@ -429,18 +495,17 @@ def _spectral_integrals(contour: _Contour, alpha: np.ndarray, electrons: float, 
     return tuple(float(2.0 / np.pi * values[contour.parts == part].sum().imag) for part in (0, 1, 2))
 
 
-def _sum_rules(state: _Photoionization, threshold_energies: Sequence[float], notes: list[str]):
-    solver = state.solver
-    contour = _sum_rule_contour(solver, threshold_energies)
-    alpha = np.empty(contour.nodes.size, dtype=complex)
-    worst = 0.0
-    for j, omega in enumerate(contour.nodes):
-        alpha[j], solution = state.alpha(complex(omega))
-        worst = max(worst, solution.residual)
+def _sum_rules(evaluator: _Evaluator, threshold_energies: Sequence[float], notes: list[str]):
+    state = evaluator.state
+    contour = _sum_rule_contour(state.solver, threshold_energies)
     first = float(min(threshold_energies))
     nu_nodes, nu_weights = imaginary_frequency_rule(REMAINDER_POINTS, _frequency_scale(threshold_energies))
-    on_axis = np.array([state.alpha(1j * nu)[0].real for nu in nu_nodes])
-    static = state.alpha(0.0)[0].real
+    checks_at = [1j * multiple * first for multiple in KRAMERS_KRONIG_MULTIPLES]
+    values = evaluator.alphas([complex(w) for w in contour.nodes] + [1j * nu for nu in nu_nodes] + [0.0] + checks_at)
+    worst = max(residual for _, residual in values)
+    values = np.array([value for value, _ in values])
+    alpha, on_axis = values[: contour.nodes.size], values[contour.nodes.size: -1 - len(checks_at)].real
+    static, direct_checks = values[-1 - len(checks_at)].real, values[-len(checks_at):].real
     exact = {0: state.electrons, -1: float(2.0 / np.pi * nu_weights @ on_axis), -2: static}
     rules = []
     for k in (0, -1, -2):
@@ -448,11 +513,10 @@ def _sum_rules(state: _Photoionization, threshold_energies: Sequence[float], not
         total = bound + continuum + remainder
         rules.append(SpectralSumRule(k, bound, continuum, remainder, total, exact[k], abs(total - exact[k]) / abs(exact[k])))
     checks = []
-    for multiple in KRAMERS_KRONIG_MULTIPLES:
+    for multiple, direct in zip(KRAMERS_KRONIG_MULTIPLES, direct_checks):
         nu = multiple * first
         rebuilt = sum(_spectral_integrals(contour, alpha, state.electrons, lambda w, nu=nu: 1.0 / (w**2 + nu**2)))
-        direct = state.alpha(1j * nu)[0].real
-        checks.append(KramersKronigCheck(nu, rebuilt, direct, abs(rebuilt - direct) / abs(direct)))
+        checks.append(KramersKronigCheck(nu, rebuilt, float(direct), abs(rebuilt - direct) / abs(direct)))
     if worst > COUPLING_RESIDUAL:
         notes.append(f"photoionization.sum_rules: a coupled solve on the sum-rule path stopped at residual {worst:.1e};"
                      " the sums are not converged")
@@ -497,15 +561,12 @@ def _disagreement(x: np.ndarray, y: np.ndarray, i: int) -> float:
     return abs(estimates[0] - estimates[1]) if len(estimates) == 2 else 0.0
 
 
-def _adaptive_range(state: _Photoionization, low: float, high: float, threshold_energies: Sequence[float]):
+def _adaptive_range(evaluator: _Evaluator, low: float, high: float, threshold_energies: Sequence[float]):
     """Rows on a grid refined where sigma changes fast; returns {omega: (row, alpha)}."""
-    samples: dict[float, tuple[PhotoionizationPoint, complex]] = {}
     segments = _segments(low, high, threshold_energies)
     total = sum(b - a for a, b in segments)
-    for a, b in segments:
-        count = max(3, int(round(RANGE_POINTS * (b - a) / total)))
-        for omega in np.linspace(a, b, count):
-            samples[float(omega)] = state.point(float(omega))
+    start = [float(w) for a, b in segments for w in np.linspace(a, b, max(3, int(round(RANGE_POINTS * (b - a) / total))))]
+    samples: dict[float, tuple[PhotoionizationPoint, complex]] = dict(zip(start, evaluator.points(start)))
     spacing = RANGE_MIN_SPACING * (high - low)
     while len(samples) < RANGE_MAX_POINTS:
         largest = max(abs(row.cross_section) for row, _ in samples.values())
@@ -519,8 +580,8 @@ def _adaptive_range(state: _Photoionization, low: float, high: float, threshold_
                     new.append(0.5 * (x[i] + x[i + 1]))
         if not new:
             break
-        for omega in new[: RANGE_MAX_POINTS - len(samples)]:
-            samples[float(omega)] = state.point(float(omega))
+        new = [float(omega) for omega in new[: RANGE_MAX_POINTS - len(samples)]]
+        samples.update(zip(new, evaluator.points(new)))
     return samples
 
 
@@ -653,13 +714,17 @@ def compute_photoionization(
     ground_state: GroundState,
     section: PhotoionizationSection,
     settings: ContinuumGridSettings = ContinuumGridSettings(),
+    workers: int = 1,
 ) -> PhotoionizationResults:
     """Dipole photoionization of a solved closed-shell atom (module docstring for the conventions).
 
     Photon energies at or below the first threshold are refused (``rejected``, one line each,
     naming the deck key); the others are computed.  The continuum grid is sized for the largest
-    photoelectron momentum requested (and the sum-rule path).
+    photoelectron momentum requested (and the sum-rule path).  ``workers`` > 1 spreads the
+    photon energies (and the sum-rule frequencies) over that many processes.
     """
+    if isinstance(workers, bool) or not isinstance(workers, int) or workers < 1:
+        raise InputError(f"workers: {workers!r} is not an integer >= 1")
     notes: list[str] = []
     rejected: list[str] = []
     ordered = thresholds(ground_state)
@@ -673,24 +738,25 @@ def compute_photoionization(
     solver, grid, scf_converged = _solver_for(ground_state, 1, wanted, settings, notes)
     state = _Photoionization(solver, ground_state, [o.label for o in ground_state.orbitals])
     threshold_energies = [float(t) for t in state.hole_energies]
-    rows = [state.point(omega)[0] for omega in energies]
     resonances: tuple[Resonance, ...] = ()
-    if window:
-        samples = _adaptive_range(state, *window, threshold_energies)
-        rows += [samples[omega][0] for omega in sorted(samples)]
-        resonances = _resonances(state, samples, *window)
-        if len(samples) >= RANGE_MAX_POINTS:
-            notes.append(f"photoionization.range: stopped refining at {RANGE_MAX_POINTS} photon energies;"
-                         " narrow structures may be under-resolved")
+    sum_rules, checks = (), ()
+    with _Evaluator(state, workers) as evaluator:
+        rows = [row for row, _ in evaluator.points(energies)]
+        if window:
+            samples = _adaptive_range(evaluator, *window, threshold_energies)
+            rows += [samples[omega][0] for omega in sorted(samples)]
+            resonances = _resonances(state, samples, *window)
+            if len(samples) >= RANGE_MAX_POINTS:
+                notes.append(f"photoionization.range: stopped refining at {RANGE_MAX_POINTS} photon energies;"
+                             " narrow structures may be under-resolved")
+        if section.sum_rules:
+            sum_rules, checks, _ = _sum_rules(evaluator, threshold_energies, notes)
     if not scf_converged:
         rows = [dataclasses_replace(row, converged=False) for row in rows]
     unconverged = [row.photon_energy for row in rows if not row.converged]
     if unconverged and scf_converged:
         notes.append(f"photoionization: {len(unconverged)} photon energies did not converge (GMRES), e.g."
                      f" {unconverged[0]:g} hartree; their rows are flagged")
-    sum_rules, checks = (), ()
-    if section.sum_rules:
-        sum_rules, checks, _ = _sum_rules(state, threshold_energies, notes)
     summary = ContinuumSummary(ordered, sum_rules, checks, grid)
     return PhotoionizationResults(tuple(rows), resonances, summary, tuple(notes), tuple(rejected))
 

@@ -44,6 +44,7 @@ operator, no induced potentials, no hole attraction).
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Sequence
 
 import numpy as np
 import scipy.linalg
@@ -355,42 +356,69 @@ class ContinuumSolver:
         rhs: tuple[np.ndarray, np.ndarray] | None = None,
         tolerance: float = KRYLOV_TOLERANCE,
         max_cycles: int = KRYLOV_MAX_CYCLES,
-        guess: OutgoingWaveOrbitals | None = None,
     ) -> OutgoingWaveOrbitals:
         """First-order orbitals at ``frequency`` (hartree; real above threshold, or complex).
 
         ``rhs`` gives (b+, b-) per channel on the inner grid (default: the multipole perturbation
-        r^L P_a); ``guess`` starts the Krylov solve from a neighbouring solution.  Call it inside
-        :func:`~tdhf.numerics.threads.single_blas_thread` (the property functions do): one BLAS
-        thread is fastest here, and setting it per call costs ~1 ms.
+        r^L P_a).  Call it inside :func:`~tdhf.numerics.threads.single_blas_thread` (the property
+        functions do): one BLAS thread is fastest here, and setting it per call costs ~1 ms.
         """
-        rhs_plus, rhs_minus = rhs if rhs is not None else (self.inner.perturbation(),) * 2
+        pair = rhs if rhs is not None else (self.inner.perturbation(),) * 2
+        return self.solve_together(frequency, (pair,), coupled, tolerance, max_cycles)[0]
+
+    def solve_together(
+        self,
+        frequency: complex,
+        right_hand_sides: Sequence[tuple[np.ndarray, np.ndarray]],
+        coupled: bool = True,
+        tolerance: float = KRYLOV_TOLERANCE,
+        max_cycles: int = KRYLOV_MAX_CYCLES,
+    ) -> tuple[OutgoingWaveOrbitals, ...]:
+        """One Krylov solve for several right-hand sides (b+, b-) at the same frequency.
+
+        The systems are stacked (each scaled to unit norm) into one block-diagonal system: its
+        Krylov space serves all of them, so two take about the iterations of one (length and
+        velocity forms: 7.4 instead of 13.9 steps, Ar), and the batched products are cheaper
+        than separate ones.  Each result's ``residual`` is its own relative residual.
+        """
         coupled = coupled and self.inner.shells.interacting
+        scales = [1.0 / max(np.linalg.norm(b_plus), np.linalg.norm(b_minus), 1e-300) for b_plus, b_minus in right_hand_sides]
+        rhs_plus = np.stack([s * np.asarray(b, dtype=complex) for s, (b, _) in zip(scales, right_hand_sides)])
+        rhs_minus = np.stack([s * np.asarray(b, dtype=complex) for s, (_, b) in zip(scales, right_hand_sides)])
         propagator = self.propagator(frequency, coupled)
-        plus0, minus0 = self.resolvents(self.padded(rhs_plus), np.asarray(rhs_minus, dtype=complex), propagator)
-        if not coupled:
-            return OutgoingWaveOrbitals(frequency, False, plus0, minus0, 0, 0.0)
-        split = plus0.size
+        plus0, minus0 = self.resolvents(self.padded(rhs_plus), rhs_minus, propagator)
+        steps, residuals = 0, np.zeros(len(scales))
+        if coupled:
+            split = plus0.size
 
-        def apply(vector: np.ndarray) -> np.ndarray:
-            images = self.resolvents(*self.coupling(vector[:split].reshape(plus0.shape),
-                                                    vector[split:].reshape(minus0.shape)), propagator)
-            return vector - np.concatenate([images[0].ravel(), images[1].ravel()])
+            def images(vector: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+                return self.resolvents(*self.coupling(vector[:split].reshape(plus0.shape),
+                                                      vector[split:].reshape(minus0.shape)), propagator)
 
-        start = np.concatenate([plus0.ravel(), minus0.ravel()])
-        first = start if guess is None else np.concatenate([guess.plus.ravel(), guess.minus.ravel()])
-        operator = LinearOperator((start.size, start.size), matvec=apply, dtype=complex)
-        steps = [0]
+            def apply(vector: np.ndarray) -> np.ndarray:
+                plus, minus = images(vector)
+                return vector - np.concatenate([plus.ravel(), minus.ravel()])
 
-        def count(_):
-            steps[0] += 1
+            start = np.concatenate([plus0.ravel(), minus0.ravel()])
+            operator = LinearOperator((start.size, start.size), matvec=apply, dtype=complex)
+            count = [0]
 
-        solution, _ = gmres(operator, start, x0=first, rtol=tolerance, atol=0.0, restart=KRYLOV_RESTART,
-                            maxiter=max_cycles, callback=count, callback_type="pr_norm")
-        residual = float(np.linalg.norm(apply(solution) - start) / np.linalg.norm(start))
-        return OutgoingWaveOrbitals(
-            frequency, True, solution[:split].reshape(plus0.shape), solution[split:].reshape(minus0.shape),
-            steps[0], residual,
+            def callback(_):
+                count[0] += 1
+
+            solution, _ = gmres(operator, start, x0=start, rtol=tolerance, atol=0.0, restart=KRYLOV_RESTART,
+                                maxiter=max_cycles, callback=callback, callback_type="pr_norm")
+            steps = count[0]
+            plus, minus = solution[:split].reshape(plus0.shape), solution[split:].reshape(minus0.shape)
+            image_plus, image_minus = images(solution)
+            for i in range(len(scales)):
+                error = np.concatenate([(plus[i] - image_plus[i] - plus0[i]).ravel(), (minus[i] - image_minus[i] - minus0[i]).ravel()])
+                reference = np.concatenate([plus0[i].ravel(), minus0[i].ravel()])
+                residuals[i] = np.linalg.norm(error) / np.linalg.norm(reference)
+            plus0, minus0 = plus, minus
+        return tuple(
+            OutgoingWaveOrbitals(frequency, coupled, plus0[i] / s, minus0[i] / s, steps, float(residuals[i]))
+            for i, s in enumerate(scales)
         )
 
     # ----------------------------------------------------------------- observables
