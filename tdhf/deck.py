@@ -35,6 +35,10 @@ A deck has one table per part of the calculation; only ``[atom]`` is required::
     # systems = ["Ne", "Ar"]       # instead: every pair among [atom] and these (a series table)
     quadrature_points = 24         # points of the imaginary-frequency quadrature, 8..96
 
+    [photoionization]              # optional: cross sections above the first threshold
+    photon_energies = [1.0, 2.0]   # hartree; and/or range = [0.6, 5.0] for an adaptive grid
+    sum_rules = true               # sum rules over bound lines + continuum
+
 Validation is strict: an unknown table or key, a value of the wrong type (a boolean is not an
 integer; an integer is accepted where a float is expected) or an impossible value raises an
 :class:`~tdhf.errors.InputError` whose one-line message starts with the full key path, e.g.

@@ -28,7 +28,7 @@ from typing import Any, Callable
 from tdhf.deck import Deck, DispersionSection, ResponseSection, parse_system_name
 from tdhf.ground_state import GroundState, solve_ground_state
 from tdhf.properties.dispersion import compute_dispersion, dispersion_table
-from tdhf.properties.photoionization import CROSS_SECTION_CONVENTION, compute_photoionization
+from tdhf.properties.photoionization import CROSS_SECTION_CONVENTION, PhotoionizationSection, compute_photoionization
 from tdhf.properties.response_properties import NORMALIZATION, compute_response
 from tdhf.radial.mesh import GridSettings
 from tdhf.report.serialize import to_jsonable
@@ -93,7 +93,7 @@ class RunSettings:
     response: ResponseSection | None
     dispersion: DispersionSection | None
     schema: int
-    photoionization: Any = None
+    photoionization: PhotoionizationSection | None = None
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -110,6 +110,9 @@ class RunResult:
         Rows from :func:`tdhf.properties.response_properties.compute_response` (empty without ``[response]``).
     dispersion : tuple
         Dispersion-coefficient rows, one per partner (empty without ``[dispersion]``).
+    photoionization, resonances, continuum
+        Rows, resonances and the summary (thresholds, sum rules, grid) of
+        :func:`tdhf.properties.photoionization.compute_photoionization` (``[photoionization]``).
     warnings : tuple of str
         One-line notes from every stage (box too small, not converged, skipped stages ...).
     settings : RunSettings
@@ -253,7 +256,7 @@ def run_deck(deck: Deck, progress: Progress | None = None) -> RunResult:
     report = progress or (lambda stage: None)
     system = deck.atom.to_system()
     settings = RunSettings(deck.grid, deck.scf, deck.response, deck.dispersion, deck.schema, deck.photoionization)
-    for name in ("grid", "scf", "response", "dispersion"):
+    for name in ("grid", "scf", "response", "dispersion", "photoionization"):
         logger.info("option %s: %s", name, getattr(settings, name))
     report(f"ground state of {system.name}")
     ground_state = solve_ground_state(system, deck.grid, deck.scf)

@@ -192,7 +192,7 @@ def test_hole_potential_is_one_over_r_beyond_the_orbitals(helium):
     """Analytic: the monopole potential of a normalized 1s density is 1/r outside it (Gauss); He
     has no other multipole, so the channel-diagonal exchange tail is exactly 1/z."""
     solver, _ = build_continuum_solver(helium.system, helium.homo_energy, 1, 2.0, 0.2)
-    tail = solver._hole_potential[0, solver.n_inner:]
+    tail = solver.hole_potential[0, solver.n_inner:]
     assert np.allclose(tail, 1.0 / solver.grid.z[solver.n_inner:], rtol=1e-12, atol=0.0)
 
 

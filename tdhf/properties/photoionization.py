@@ -38,8 +38,8 @@ axis and analytic in the upper half plane, where :math:`\alpha` is analytic too,
 theorem the real-axis integral may be taken along any path in the upper half plane with the same
 end points.  It is split into
 
-* **bound**: the bound lines below I_1, as the integral along a half-ellipse from I_1/2 (below the
-  first excitation) to I_1 (an infinite Rydberg series accumulates at I_1 and cannot be summed
+* **bound**: the bound lines below I_1, as the integral along a half-ellipse to I_1 from half the
+  lowest bare excitation (below the first RPA one) (an infinite Rydberg series accumulates at I_1 and cannot be summed
   line by line; approached off the real axis its contribution is smooth);
 * **continuum**: the real axis from I_1 up to :math:`\Omega_c` (the actual cross sections), with a
   semicircular detour over each inner threshold and the autoionizing Rydberg series below it;
@@ -436,14 +436,14 @@ def _real_panels(left: float, right: float) -> tuple[np.ndarray, np.ndarray]:
 
 def _detours(solver: ContinuumSolver, first: float, inner_thresholds: Sequence[float], end: float) -> list[tuple[float, float]]:
     """Intervals [I_b - Delta_b, I_b + delta_b] of the inner thresholds below ``end``, merged."""
-    operators = solver._channel_operators(True)
+    energies = solver.channel_energies(True)
     holes = -np.asarray(solver.inner.orbital_energies)
     intervals = []
     ordered = sorted(set(float(t) for t in inner_thresholds))
     for i, threshold in enumerate(ordered):
         if threshold >= end:
             break
-        lowest = min(float(op.values.min()) for op, c in zip(operators, solver.channels)
+        lowest = min(float(values[0]) for values, c in zip(energies, solver.channels)
                      if abs(holes[c.shell] - threshold) <= 1e-9 * threshold)
         depth = DETOUR_MARGIN * max(-lowest, 0.02)
         following = ordered[i + 1] if i + 1 < len(ordered) else math.inf
@@ -459,7 +459,13 @@ def _detours(solver: ContinuumSolver, first: float, inner_thresholds: Sequence[f
 def _sum_rule_contour(solver: ContinuumSolver, threshold_energies: Sequence[float]) -> _Contour:
     first = float(min(threshold_energies))
     height = 0.5 * min(KRAMERS_KRONIG_MULTIPLES) * first
-    pieces = [(*_half_ellipse(0.5 * first, first, min(0.25 * first, height), BOUND_POINTS), 0)]
+    # The path must leave the real axis below the first excitation.  The bare excitations (the
+    # photoelectron bound by the hole potential, without the induced terms) lie below the RPA
+    # singlet ones, whose exchange term raises them: start at half the lowest of them.
+    holes = -np.asarray(solver.inner.orbital_energies)
+    bare = min(float(values[0]) + holes[c.shell] for values, c in zip(solver.channel_energies(True), solver.channels))
+    start = 0.5 * min(first, bare) if bare > 0.0 else 0.5 * first
+    pieces = [(*_half_ellipse(start, first, min(0.5 * (first - start), height), BOUND_POINTS), 0)]
     end = max(3.0 * first, first + 1.0)
     inner = [t for t in threshold_energies if t > first * (1.0 + 1e-12)]
     detours = _detours(solver, first, inner, end)
@@ -520,7 +526,7 @@ def _sum_rules(evaluator: _Evaluator, threshold_energies: Sequence[float], notes
     if worst > COUPLING_RESIDUAL:
         notes.append(f"photoionization.sum_rules: a coupled solve on the sum-rule path stopped at residual {worst:.1e};"
                      " the sums are not converged")
-    return tuple(rules), tuple(checks), contour.end
+    return tuple(rules), tuple(checks)
 
 
 # --------------------------------------------------------------------------------------------
@@ -750,7 +756,7 @@ def compute_photoionization(
                 notes.append(f"photoionization.range: stopped refining at {RANGE_MAX_POINTS} photon energies;"
                              " narrow structures may be under-resolved")
         if section.sum_rules:
-            sum_rules, checks, _ = _sum_rules(evaluator, threshold_energies, notes)
+            sum_rules, checks = _sum_rules(evaluator, threshold_energies, notes)
     if not scf_converged:
         rows = [dataclasses_replace(row, converged=False) for row in rows]
     unconverged = [row.photon_energy for row in rows if not row.converged]

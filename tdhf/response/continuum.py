@@ -166,7 +166,8 @@ class ContinuumSolver:
         self.inner_radius = inner.grid.r_max
         self._holes = inner.orbital_energies[[c.shell for c in self.channels]]
         self._weights = np.array([c.weight for c in self.channels])
-        self._hole_potential, self._tails = self._first_kind_exchange()
+        #: D_t at the nodes, shape (T, n): the channel-diagonal first-kind exchange (the hole potential).
+        self.hole_potential, self._tails = self._first_kind_exchange()
         self._operators: dict[bool, tuple[_ChannelOperator, ...]] = {}
 
     # ----------------------------------------------------------------- setup
@@ -252,11 +253,11 @@ class ContinuumSolver:
                 # then keeps the low eigenvalues to ~1e-14 hartree; in ascending order they lose
                 # ~1e-9 against eigenvalues up to 1e8 (measured, Ar).
                 values, vectors = values[::-1], vectors[:, ::-1]
-                hole = self._hole_potential[t, :b].real
+                hole = self.hole_potential[t, :b].real
                 matrix = np.diag(values) - vectors.T @ (hole[:, None] * vectors)
                 values, rotation = scipy.linalg.eigh(0.5 * (matrix + matrix.T))
                 vectors = vectors @ rotation
-                potential = potential - self._hole_potential[t, b:]
+                potential = potential - self.hole_potential[t, b:]
             band = kinetic_band.copy()
             band[2 * p] += potential[1:]
             operator = _ChannelOperator(values, vectors, band, stiffness[b, b] + potential[0], to_inner,
@@ -265,6 +266,14 @@ class ContinuumSolver:
             operators.append(operator)
         self._operators[coupled] = tuple(operators)
         return self._operators[coupled]
+
+    def channel_energies(self, coupled: bool = True) -> tuple[np.ndarray, ...]:
+        """Per channel, the eigenvalues (hartree) of the inner block of its operator, ascending.
+
+        Negative ones are the bare bound states of the photoelectron (with the hole potential
+        when ``coupled``): below a closed channel's threshold they start its Rydberg series.
+        """
+        return tuple(np.sort(op.values) for op in self._channel_operators(coupled))
 
     # ----------------------------------------------------------------- operators
     def padded(self, rows: np.ndarray) -> np.ndarray:
@@ -342,7 +351,7 @@ class ContinuumSolver:
         parts_plus, parts_minus = self.inner.coupling(
             np.stack([plus[..., :b].real, plus[..., :b].imag]), np.stack([minus.real, minus.imag])
         )
-        hole = self._hole_potential[:, :b].real
+        hole = self.hole_potential[:, :b].real
         out_plus = np.empty(plus.shape, dtype=complex)
         out_plus[..., :b] = parts_plus[0] + 1j * parts_plus[1] - hole * plus[..., :b]
         out_plus[..., b:] = np.einsum("tsn,...sn->...tn", self._tails, plus[..., b:])
