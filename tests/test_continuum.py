@@ -267,7 +267,7 @@ def test_helium_sum_rules_and_kramers_kronig(helium):
     assert rules[-1].total == pytest.approx(rules[-1].exact, rel=1e-6)
     for check, reference in zip(summary.kramers_kronig, direct[1:]):
         assert check.rebuilt == pytest.approx(reference.coupled, rel=1e-6)
-    assert all(rule.bound > 0 and rule.continuum > 0 for rule in summary.sum_rules)
+    assert all(rule.bound > 0 and rule.continuum > 0 and rule.converged for rule in summary.sum_rules)
 
 
 @pytest.mark.parametrize("change", [

@@ -171,6 +171,8 @@ class SpectralSumRule:
     """:math:`S(k) = \\sum_n f_n \\omega_n^k + \\int (df/d\\omega) \\omega^k d\\omega` by parts (module docstring).
 
     ``exact``: N for k = 0; alpha(0) for k = -2; the imaginary-axis integral for k = -1.
+    ``converged``: every solve on the path reached the residual limit (and the ground state on
+    the continuum grid converged).
     """
 
     k: int
@@ -180,6 +182,7 @@ class SpectralSumRule:
     total: float
     exact: float
     relative_difference: float
+    converged: bool = True
 
 
 @dataclass(frozen=True)
@@ -190,6 +193,7 @@ class KramersKronigCheck:
     rebuilt: float
     direct: float
     relative_difference: float
+    converged: bool = True
 
 
 @dataclass(frozen=True)
@@ -501,7 +505,7 @@ def _spectral_integrals(contour: _Contour, alpha: np.ndarray, electrons: float, 
     return tuple(float(2.0 / np.pi * values[contour.parts == part].sum().imag) for part in (0, 1, 2))
 
 
-def _sum_rules(evaluator: _Evaluator, threshold_energies: Sequence[float], notes: list[str]):
+def _sum_rules(evaluator: _Evaluator, threshold_energies: Sequence[float], notes: list[str], ground_converged: bool):
     state = evaluator.state
     contour = _sum_rule_contour(state.solver, threshold_energies)
     first = float(min(threshold_energies))
@@ -509,6 +513,7 @@ def _sum_rules(evaluator: _Evaluator, threshold_energies: Sequence[float], notes
     checks_at = [1j * multiple * first for multiple in KRAMERS_KRONIG_MULTIPLES]
     values = evaluator.alphas([complex(w) for w in contour.nodes] + [1j * nu for nu in nu_nodes] + [0.0] + checks_at)
     worst = max(residual for _, residual in values)
+    converged = bool(ground_converged and worst <= COUPLING_RESIDUAL)
     values = np.array([value for value, _ in values])
     alpha, on_axis = values[: contour.nodes.size], values[contour.nodes.size: -1 - len(checks_at)].real
     static, direct_checks = values[-1 - len(checks_at)].real, values[-len(checks_at):].real
@@ -517,12 +522,13 @@ def _sum_rules(evaluator: _Evaluator, threshold_energies: Sequence[float], notes
     for k in (0, -1, -2):
         bound, continuum, remainder = _spectral_integrals(contour, alpha, state.electrons, lambda w, k=k: w**k)
         total = bound + continuum + remainder
-        rules.append(SpectralSumRule(k, bound, continuum, remainder, total, exact[k], abs(total - exact[k]) / abs(exact[k])))
+        rules.append(SpectralSumRule(k, bound, continuum, remainder, total, exact[k],
+                                     abs(total - exact[k]) / abs(exact[k]), converged))
     checks = []
     for multiple, direct in zip(KRAMERS_KRONIG_MULTIPLES, direct_checks):
         nu = multiple * first
         rebuilt = sum(_spectral_integrals(contour, alpha, state.electrons, lambda w, nu=nu: 1.0 / (w**2 + nu**2)))
-        checks.append(KramersKronigCheck(nu, rebuilt, float(direct), abs(rebuilt - direct) / abs(direct)))
+        checks.append(KramersKronigCheck(nu, rebuilt, float(direct), abs(rebuilt - direct) / abs(direct), converged))
     if worst > COUPLING_RESIDUAL:
         notes.append(f"photoionization.sum_rules: a coupled solve on the sum-rule path stopped at residual {worst:.1e};"
                      " the sums are not converged")
@@ -756,7 +762,7 @@ def compute_photoionization(
                 notes.append(f"photoionization.range: stopped refining at {RANGE_MAX_POINTS} photon energies;"
                              " narrow structures may be under-resolved")
         if section.sum_rules:
-            sum_rules, checks = _sum_rules(evaluator, threshold_energies, notes)
+            sum_rules, checks = _sum_rules(evaluator, threshold_energies, notes, scf_converged)
     if not scf_converged:
         rows = [dataclasses_replace(row, converged=False) for row in rows]
     unconverged = [row.photon_energy for row in rows if not row.converged]
