@@ -82,11 +82,11 @@ def main() -> None:
         iterations = np.mean([row.krylov_iterations for row in result.photoionization])
         flag = "ok" if median < target else "SLOW"
         print(f"{name:6s} {element} ({args.workers} worker{'s' if args.workers > 1 else ''}): {count} energies {grid[0]:.3f}..{grid[-1]:.3f} hartree, grid {info.points} points"
-              f" ({info.inner_points} inner), {len(result.photoionization[0].partial)}+ subshells:"
+              f" ({info.inner_points} inner):"
               f" median {median:.2f} s, best {best:.2f} s ({1e3 * median / count:.0f} ms per energy,"
               f" {iterations:.1f} Krylov steps length+velocity), target {target:g} s {flag}")
         _, seconds, steps = length_only(state, grid)
-        print(f"{'':6s} sigma only (coupled length solves, after set-up): {seconds:.2f} s, {steps:.1f} Krylov steps")
+        print(f"{'':6s} sigma only (coupled length solves, serial, after set-up): {seconds:.2f} s, {steps:.1f} Krylov steps")
 
 
 if __name__ == "__main__":
