@@ -38,6 +38,10 @@ A deck has one table per part of the calculation; only ``[atom]`` is required::
     # pairs = ["He:Ne", "Ar:Kr"]   # or: exactly these pairs
     quadrature_points = 24         # points of the imaginary-frequency quadrature, 8..96
 
+    [photoionization]              # optional: cross sections above the first threshold
+    photon_energies = [1.0, 2.0]   # hartree; and/or range = [0.6, 5.0] for an adaptive grid
+    sum_rules = true               # sum rules over bound lines + continuum
+
 A deck is data only: it names no files and no programs, so reading it never reaches outside the
 deck file itself; results go only where the command line says (``--json``, ``--csv``, ``--out``).
 A deck is at most MAX_DECK_BYTES long (a stream that does not end is refused), lists of
@@ -82,6 +86,7 @@ from tdhf.scf import ScfSettings
 from tdhf.system import System
 from tdhf.units import parse_frequency
 from tdhf.properties.dispersion import DEFAULT_QUADRATURE_POINTS, QUADRATURE_RANGE
+from tdhf.properties.photoionization import PhotoionizationSection
 
 __all__ = [
     "SCHEMA_VERSION",
@@ -99,6 +104,7 @@ __all__ = [
     "MAX_FREQUENCY",
     "MAX_FREQUENCIES",
     "MAX_SYSTEMS",
+    "parse_photoionization",
 ]
 
 #: The only deck format version so far.
@@ -196,6 +202,7 @@ class Deck:
     schema: int = SCHEMA_VERSION
     accuracy: str = "default"
     tolerances: ResponseTolerances = ResponseTolerances()
+    photoionization: PhotoionizationSection | None = None
 
 
 # --------------------------------------------------------------------------------------------
@@ -274,9 +281,11 @@ def build_deck(data: Mapping[str, Any]) -> Deck:
     scf = _scf(_table("scf", data.get("scf", {})), preset.scf)
     response = _response(_table("response", data["response"])) if "response" in data else None
     dispersion = _dispersion(_table("dispersion", data["dispersion"])) if "dispersion" in data else None
+    photoionization = (parse_photoionization(_table("photoionization", data["photoionization"]))
+                       if "photoionization" in data else None)
     _check_grids(atom, grid, dispersion)
     return Deck(atom=atom, grid=grid, scf=scf, response=response, dispersion=dispersion, schema=schema,
-                accuracy=accuracy, tolerances=preset.tolerances)
+                accuracy=accuracy, tolerances=preset.tolerances, photoionization=photoionization)
 
 
 def _accuracy(data: Mapping[str, Any], grid_table: Mapping[str, Any]) -> str:
@@ -493,7 +502,7 @@ def format_deck(deck: Deck) -> str:
     True
     """
     lines = [f"schema = {deck.schema}", f"accuracy = {_toml_value(deck.accuracy)}"]
-    for name in ("atom", "grid", "scf", "response", "dispersion"):
+    for name in ("atom", "grid", "scf", "response", "dispersion", "photoionization"):
         section = getattr(deck, name)
         if section is None:
             continue
@@ -533,7 +542,7 @@ def _toml_value(value: Any) -> str:
 # Checks shared by the tables
 
 
-_TOP_LEVEL = ("schema", "accuracy", "atom", "grid", "scf", "response", "dispersion")
+_TOP_LEVEL = ("schema", "accuracy", "atom", "grid", "scf", "response", "dispersion", "photoionization")
 _TABLES = _TOP_LEVEL[2:]
 
 
@@ -639,3 +648,39 @@ def _unique(path: str, values: list[Any]) -> tuple[Any, ...]:
 
 def _quoted(names: Mapping[str, Any] | tuple[str, ...]) -> str:
     return ", ".join(f'"{name}"' for name in names)
+
+
+# --------------------------------------------------------------------------------------------
+# [photoionization]
+
+
+def parse_photoionization(table: Mapping[str, Any]) -> PhotoionizationSection:
+    """``[photoionization]``: ``photon_energies = [...]`` and/or ``range = [low, high]`` (hartree).
+
+    Photon energies at or below the first ionization threshold are refused when the atom has
+    been solved (the threshold is not known before); here only the form is checked.
+
+    >>> parse_photoionization({"range": [0.6, 5.0]}).range
+    (0.6, 5.0)
+    """
+    _check_keys("photoionization", table, _field_names(PhotoionizationSection))
+    if "photon_energies" not in table and "range" not in table:
+        raise DeckError("photoionization: give photon_energies = [...] (hartree) or range = [low, high]"
+                        " for an adaptive grid")
+    energies = []
+    for i, item in enumerate(_array("photoionization.photon_energies", table.get("photon_energies", []), True)):
+        energy = _number(f"photoionization.photon_energies[{i}]", item)
+        if energy <= 0.0:
+            raise DeckError(f"photoionization.photon_energies[{i}]: {energy!r} is not > 0; photon energies are"
+                            " in hartree")
+        energies.append(energy)
+    window = None
+    if "range" in table:
+        bounds = _array("photoionization.range", table["range"], allow_empty=False)
+        values = [_number(f"photoionization.range[{i}]", item) for i, item in enumerate(bounds)]
+        if len(values) != 2 or not 0.0 < values[0] < values[1]:
+            raise DeckError(f"photoionization.range: {_toml_value(values)} is not [low, high] with"
+                            " 0 < low < high (hartree)")
+        window = (values[0], values[1])
+    sum_rules = _boolean("photoionization.sum_rules", table.get("sum_rules", PhotoionizationSection.sum_rules))
+    return PhotoionizationSection(_unique("photoionization.photon_energies", energies), window, sum_rules)

@@ -33,6 +33,14 @@ from tdhf.properties.dispersion import (
     dispersion_table,
 )
 from tdhf.properties.polarizability import DipoleShielding, Polarizability, QuadrupoleShielding
+from tdhf.properties.photoionization import (
+    CROSS_SECTION_CONVENTION,
+    ContinuumSummary,
+    PhotoionizationPoint,
+    PhotoionizationSection,
+    Resonance,
+    compute_photoionization,
+)
 from tdhf.properties.response_properties import NORMALIZATION, compute_response
 from tdhf.properties.spectrum import Excitation, StrengthDistribution
 from tdhf.properties.sum_rules import SumRule
@@ -75,6 +83,8 @@ class Conventions:
         The Casimir-Polder formulas of C6, C8, C10.
     uncertainty : str
         What ``<key>_uncertainty`` and ``certification`` mean.
+    photoionization : str
+        Units and definitions of the cross sections.
     """
 
     units: str = "atomic units: hartree, bohr; alpha_L in bohr^(2L+1); C_n in hartree bohr^n"
@@ -94,6 +104,7 @@ class Conventions:
         " enlarged 1.5x, the SCF/Krylov/eigensolver tolerances tightened 100x and (C_n) the quadrature enlarged;"
         " <key>_uncertainty = 2 |difference| (absolute, same unit); absent when the run was not certified"
     )
+    photoionization: str = CROSS_SECTION_CONVENTION
 
 
 @dataclass(frozen=True)
@@ -112,6 +123,10 @@ class RunSettings:
         The deck's [response] and [dispersion] tables with defaults filled in (None if absent).
     schema : int
         The deck format version.
+    deck_digest : str
+        SHA-256 of the normalized deck.
+    photoionization : PhotoionizationSection or None
+        The deck's [photoionization] table (None if absent).
     """
 
     accuracy: str
@@ -122,6 +137,7 @@ class RunSettings:
     dispersion: DispersionSection | None
     schema: int
     deck_digest: str = ""
+    photoionization: PhotoionizationSection | None = None
 
 
 @dataclass(frozen=True)
@@ -164,6 +180,9 @@ class RunResult:
         alpha_L(i w) of each system of the pairs on the quadrature nodes, and its static alpha_L(0).
     certification : tuple of Certification
         Empty unless the run was certified.
+    photoionization, resonances, continuum
+        Rows, resonances and the summary (thresholds, sum rules, grid) of
+        :func:`tdhf.properties.photoionization.compute_photoionization` (``[photoionization]``).
     warnings : tuple of str
         One-line notes from every stage (box too small, not converged, skipped stages ...).
     rejected : tuple of str
@@ -192,6 +211,9 @@ class RunResult:
     certification: tuple[Certification, ...] = ()
     warnings: tuple[str, ...] = ()
     rejected: tuple[str, ...] = ()
+    photoionization: tuple[PhotoionizationPoint, ...] = ()
+    resonances: tuple[Resonance, ...] = ()
+    continuum: ContinuumSummary | None = None
     settings: RunSettings
     program: ProgramInfo = field(default_factory=program_info)
     conventions: Conventions = field(default_factory=Conventions)
@@ -217,6 +239,8 @@ class RunResult:
                      for row in self.dispersion if not row.converged]
         problems += [f"certification: {row.quantity} did not converge in a variation"
                      for row in self.certification if not row.converged]
+        problems += [f"{self.atom.name}: photoionization at {row.photon_energy:g} hartree did not converge"
+                     for row in self.photoionization if not row.converged]
         problems += [
             f"{state.system.name}: Hartree-Fock did not converge after {state.iterations} iterations "
             f"(DIIS, then damped DIIS; last: {state.scf_strategy}); final orbital change "
@@ -260,8 +284,8 @@ def run_deck(deck: Deck, progress: Progress | None = None, map_tasks: TaskMap | 
     report = progress or (lambda stage: None)
     system = deck.atom.to_system()
     settings = RunSettings(deck.accuracy, deck.grid, deck.scf, deck.tolerances, deck.response, deck.dispersion,
-                           deck.schema, deck_digest(deck))
-    for name in ("accuracy", "grid", "scf", "tolerances", "response", "dispersion"):
+                           deck.schema, deck_digest(deck), deck.photoionization)
+    for name in ("accuracy", "grid", "scf", "tolerances", "response", "dispersion", "photoionization"):
         logger.info("option %s: %s", name, getattr(settings, name))
     report(f"ground state of {system.name}")
     ground_state = solve_ground_state(system, deck.grid, deck.scf)
@@ -282,6 +306,13 @@ def run_deck(deck: Deck, progress: Progress | None = None, map_tasks: TaskMap | 
             dispersion_fields, library_notes = _run_dispersion(ground_state, deck.dispersion, deck, report, map_tasks)
             fields |= dispersion_fields
             notes += library_notes
+        if deck.photoionization is not None:
+            report(f"photoionization of {system.name}")
+            continuum = compute_photoionization(ground_state, deck.photoionization, map_tasks=map_tasks)
+            fields |= {"photoionization": continuum.photoionization, "resonances": continuum.resonances,
+                       "continuum": continuum.continuum,
+                       "rejected": tuple(fields.get("rejected", ())) + continuum.rejected}
+            notes += continuum.warnings
     for note in own_notes:
         warnings.warn(note, RuntimeWarning, stacklevel=2)
     return RunResult(atom=system, ground_state=ground_state, warnings=tuple(notes + own_notes),

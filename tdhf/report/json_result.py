@@ -25,9 +25,13 @@ _STEP = re.compile(r"([A-Za-z_]\w*)(?:\[(\d+)\])?")
 def result_to_json(result: RunResult) -> dict[str, Any]:
     """JSON-ready data of a run (see the module docstring)."""
     data = to_jsonable(result)
-    if result.settings.response is None:
+    if result.settings.response is None and result.settings.photoionization is None:
         del data["rejected"]
+    if result.settings.response is None:
         for name in RESPONSE_FIELDS:
+            del data[name]
+    if result.settings.photoionization is None:
+        for name in ("photoionization", "resonances", "continuum"):
             del data[name]
     if result.settings.dispersion is None:
         del data["dispersion"]
