@@ -313,21 +313,23 @@ def test_cli_unexpected_error_exits_1_with_one_line(monkeypatch):
     assert "Traceback" in err.getvalue()
 
 
-def test_cli_frequency_above_the_threshold_exits_2_and_keeps_the_rest(tmp_path):
+def test_cli_frequency_on_the_threshold_exits_2_and_keeps_the_rest(tmp_path):
     """He: 0.9 hartree lies between the 1s4p and 1s5p 1P poles (below the 0.918 threshold) and is
-    computed with its neighbouring poles; 0.95 is above the threshold (continuum) and refused.
+    computed with its neighbouring poles; 1.2 is above the threshold: complex alpha with outgoing
+    waves, absorbing (Im alpha > 0, analytic sign of absorption); the threshold itself is refused.
     Pole positions are self-regression values of this code (tests/test_spectrum.py)."""
-    run = tdhf("atom", "He", "--multipoles", "1", "--frequencies", "0", "0.9", "0.95", "--json", "out.json",
-               cwd=tmp_path)
+    run = tdhf("atom", "He", "--multipoles", "1", "--frequencies", "0", "0.9", "1.2", "0.9179555628",
+               "--json", "out.json", cwd=tmp_path)
     assert run.returncode == 2
     assert "Traceback" not in run.stderr
     (error,) = [line for line in run.stderr.splitlines() if line.startswith("tdhf: error:")]
-    assert "response.frequencies[2]: 0.95 hartree is at or above the ionization threshold (0.91795" in error
+    assert "response.frequencies[3]: 0.917956 hartree is at the ionization threshold (0.91795" in error
     data = json.loads((tmp_path / "out.json").read_text())
     rows = data["polarizabilities"]
-    assert [row["frequency"] for row in rows] == [0.0, 0.9]
+    assert [row["frequency"] for row in rows] == [0.0, 0.9, 1.2]
     assert rows[1]["pole_below"] < 0.9 < rows[1]["pole_above"] < 0.918
-    assert data["rejected"] and data["rejected"][0].startswith("response.frequencies[2]")
+    assert rows[2]["method"] == "outgoing waves" and rows[2]["coupled_imaginary_part"] > 0.0 and rows[2]["converged"]
+    assert data["rejected"] and data["rejected"][0].startswith("response.frequencies[3]")
 
 
 def test_cli_certify_compares_every_number_on_a_finer_grid(tmp_path):

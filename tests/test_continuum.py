@@ -423,3 +423,21 @@ def test_two_workers_give_the_serial_numbers(helium):
         assert a.total == pytest.approx(b.total, rel=1e-13, abs=0.0)
     for a, b in zip(parallel.continuum.kramers_kronig, serial.continuum.kramers_kronig):
         assert a.rebuilt == pytest.approx(b.rebuilt, rel=1e-13, abs=0.0)
+
+def test_real_frequencies_above_threshold_give_the_continuum_alpha(hydrogen):
+    """Analytic (Stobbe's exact 1s cross section, above): a [response] frequency above the hydrogen
+    threshold is no longer refused but solved with outgoing waves, and its Im alpha_1 gives
+    sigma = 4 pi omega Im alpha / c to the 1e-7 of the continuum solver (measured 6e-9)."""
+    from tdhf.properties.photoionization import SPEED_OF_LIGHT
+    from tdhf.properties.response_properties import compute_response
+
+    frequencies = (0.6, 1.0, 3.0)
+    results = compute_response(hydrogen, frequencies=frequencies)
+    assert not results.rejected
+    rows = results.polarizabilities
+    assert [row.method for row in rows] == ["outgoing waves"] * 3 and all(row.converged for row in rows)
+    sigma = np.array([4.0 * np.pi * row.frequency * row.coupled_imaginary_part / SPEED_OF_LIGHT for row in rows])
+    np.testing.assert_allclose(sigma, stobbe_cross_section(np.array(frequencies)), rtol=1e-7, atol=0.0)
+    # one electron: coupled and uncoupled are the same equations
+    assert [row.uncoupled_imaginary_part for row in rows] == pytest.approx([row.coupled_imaginary_part for row in rows],
+                                                                              rel=1e-12, abs=0.0)

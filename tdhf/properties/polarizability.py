@@ -40,13 +40,15 @@ class Polarizability:
     """alpha_L at one frequency (bohr^(2L+1)); ``frequency`` is nu for ``imaginary`` (omega = i nu).
 
     With ``broadening`` eta > 0 the frequency is omega + i eta and the imaginary parts are
-    non-zero; otherwise they are 0.  ``uncoupled`` is None at an uncoupled pole.
+    non-zero; above the ionization threshold (``method`` "outgoing waves") they are the
+    absorption of the continuum; otherwise they are 0.  ``uncoupled`` is None at an uncoupled pole.
     ``velocity_form`` is the coupled dipole value from the velocity-gauge perturbation (equal to
     ``coupled`` in a complete basis; None for L > 1, broadened and asymptotic rows).
     ``pole_below`` and ``pole_above`` (hartree) are the neighbouring excitations of a real
     frequency (None where there is none or for imaginary frequencies).  ``method`` is how the
     coupled value was obtained: "krylov" (GMRES), "asymptotic series" (S(0)/nu^2 - S(2)/nu^4 far
-    above every excitation) or "direct" (uncoupled or one-electron: no coupling to solve).
+    above every excitation), "direct" (uncoupled or one-electron: no coupling to solve) or
+    "outgoing waves" (above the ionization threshold, exterior complex scaling).
     ``converged`` is False if any solve behind the row's numbers did not converge; ``residual``
     is the largest relative residual of those solves.
 
@@ -60,11 +62,12 @@ class Polarizability:
         True on the imaginary axis.
     coupled, uncoupled : float
         alpha_L in bohr^(2L+1): TDHF (coupled Hartree-Fock) and uncoupled (no induced field);
-        the real part for a broadened frequency.
+        the real part for a broadened frequency or above the ionization threshold.
     broadening : float
         eta in hartree (0: none); the frequency is then omega + i eta.
     coupled_imaginary_part, uncoupled_imaginary_part : float
-        Im alpha_L at omega + i eta (0 without broadening), bohr^(2L+1).
+        Im alpha_L at omega + i eta, or at a real omega above the ionization threshold (the
+        absorption; 0 otherwise), bohr^(2L+1).
     converged : bool
         Every solve behind the row converged.
     krylov_iterations : int
@@ -78,7 +81,7 @@ class Polarizability:
     pole_below, pole_above : float or None
         Neighbouring excitation energies of a real frequency, hartree.
     method : str
-        "krylov", "asymptotic series" or "direct" (see above).
+        "krylov", "asymptotic series", "direct" or "outgoing waves" (see above).
     """
 
     multipole: int

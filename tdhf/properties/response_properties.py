@@ -7,10 +7,12 @@ Real frequencies
 ----------------
 Between bound poles alpha(omega) is real and finite: every real frequency below the ionization
 threshold is computed unless it lies on an excitation (within :data:`RESONANCE_MARGIN` relative),
-and the row names the poles on either side (``pole_below``, ``pole_above``).  A frequency on a
-pole, or at or above the threshold (the continuum), is refused: an entry in
-``ResponseResults.rejected`` naming the key, the pole or threshold and the nearest allowed
-frequencies, while the other frequencies are still computed.  With a broadening eta > 0 every
+and the row names the poles on either side (``pole_below``, ``pole_above``).  Above the threshold
+alpha is complex: it is solved with outgoing waves (exterior complex scaling, method
+"outgoing waves"; coupled and uncoupled, imaginary parts in ``*_imaginary_part``).  A frequency
+on a pole or on the threshold itself is refused: an entry in ``ResponseResults.rejected`` naming
+the key, the pole or threshold and the nearest allowed frequencies, while the other frequencies
+are still computed.  With a broadening eta > 0 every
 frequency is computed at omega + i eta.
 
 Boxes
@@ -38,6 +40,7 @@ from tdhf.errors import FrequencyError, InputError
 from tdhf.ground_state import GroundState, solve_ground_state
 from tdhf.numerics.status import combine
 from tdhf.numerics.threads import single_blas_thread
+from tdhf.properties.photoionization import continuum_polarizabilities
 from tdhf.properties.polarizability import DipoleShielding, Polarizability, QuadrupoleShielding, VelocityForm
 from tdhf.properties.spectrum import (
     Excitation,
@@ -47,6 +50,7 @@ from tdhf.properties.spectrum import (
     strength_distribution,
 )
 from tdhf.properties.sum_rules import SumRule, cauchy_moments, energy_weighted_sum, exact_energy_weighted_sum
+from tdhf.radial.exterior_scaling import ContinuumGridSettings
 from tdhf.response.solver import FirstOrderOrbitals, ResponseSolver, ResponseTolerances
 
 __all__ = [
@@ -123,6 +127,7 @@ class _Request:
     excitation_count: int
     tolerances: ResponseTolerances
     eigen_tolerance: float
+    continuum_grid: ContinuumGridSettings = ContinuumGridSettings()
 
 
 def _check_frequencies(name: str, values: Sequence[float]) -> tuple[float, ...]:
@@ -151,6 +156,7 @@ def compute_response(
     excitation_count: int = 0,
     tolerances: ResponseTolerances = ResponseTolerances(),
     eigen_tolerance: float = 1e-10,
+    continuum_grid: ContinuumGridSettings = ContinuumGridSettings(),
 ) -> ResponseResults:
     """Polarizabilities, shielding factors, sum rules and (if asked) excitations of a solved atom.
 
@@ -172,6 +178,8 @@ def compute_response(
     tolerances : ResponseTolerances
     eigen_tolerance : float
         Residual of the RPA eigensolver.
+    continuum_grid : ContinuumGridSettings
+        The scaled grid of real frequencies above the ionization threshold.
 
     Raises
     ------
@@ -189,7 +197,8 @@ def compute_response(
         raise InputError(f"response: the ground state of {ground_state.system.name} did not converge; no response from it")
     request = _Request(_check_frequencies("frequencies", frequencies),
                        _check_frequencies("imaginary_frequencies", imaginary_frequencies),
-                       bool(coupled), float(broadening), int(excitation_count), tolerances, float(eigen_tolerance))
+                       bool(coupled), float(broadening), int(excitation_count), tolerances, float(eigen_tolerance),
+                       continuum_grid)
     collected = _Collected(boxes={ground_state.r_max: ground_state})
     for L in multipoles:
         _one_multipole(ground_state, int(L), request, collected)
@@ -239,13 +248,15 @@ def _classify(L: int, solver: ResponseSolver, spectrum: Spectrum | None, request
     allowed, refused = [], []
     for i, omega in enumerate(request.frequencies):
         key = f"response.frequencies[{i}]"
-        if omega >= threshold * (1.0 - RESONANCE_MARGIN):
+        if abs(omega - threshold) <= RESONANCE_MARGIN * threshold:
             refused.append(
-                f"{key}: {omega:g} hartree is at or above the ionization threshold ({threshold:.8f} hartree,"
-                f" -epsilon of the outermost orbital): the {name} response is a continuum there; give a real"
-                " frequency below it, an imaginary frequency or a broadening"
+                f"{key}: {omega:g} hartree is at the ionization threshold ({threshold:.8f} hartree, -epsilon of"
+                f" the outermost orbital), where the {name} photoelectron has zero momentum; give a frequency"
+                f" at least {RESONANCE_MARGIN * threshold:.1e} hartree away from it"
             )
             continue
+        if omega > threshold:
+            continue  # the continuum: complex alpha with outgoing waves (_continuum_rows)
         if omega > 0.0 and spectrum is not None:
             below, above = spectrum.poles_around(omega)
             for pole in (below, above):
@@ -286,6 +297,8 @@ def _one_multipole(ground_state: GroundState, L: int, request: _Request, out: _C
     for omega, imaginary in rows:
         known = None if imaginary else work.solved.get(omega)
         _frequency_rows(state, solver, name, omega, imaginary, request, spectrum, velocity, out, known)
+    if request.broadening == 0.0:
+        _continuum_rows(state, L, name, request, out)
     static = work.solved.get(0.0) if request.broadening == 0.0 else None
     _sum_rules(state, solver, name, request, spectrum, out, static)
 
@@ -411,6 +424,32 @@ def _frequency_rows(state, solver, name, omega, imaginary, request: _Request, sp
         out.quadrupole_shielding.append(
             QuadrupoleShielding(omega, imaginary, gamma, gamma_uncoupled if uncoupled_valid else None, status.converged)
         )
+
+
+def _continuum_rows(state: GroundState, L: int, name: str, request: _Request, out: _Collected) -> None:
+    """Complex alpha_L at the real frequencies above the ionization threshold (outgoing waves).
+
+    Solved on an exterior-complex-scaled grid (:mod:`tdhf.properties.photoionization`), coupled
+    and uncoupled; the imaginary parts are the absorption (for L = 1, sigma = 4 pi omega Im alpha / c).
+    """
+    threshold = -float(state.orbital_energies.max())
+    above = [omega for omega in request.frequencies if omega > threshold * (1.0 + RESONANCE_MARGIN)]
+    if not above:
+        return
+    coupled = continuum_polarizabilities(state, L, above, request.coupled, request.continuum_grid)
+    uncoupled = (coupled if not request.coupled
+                 else continuum_polarizabilities(state, L, above, False, request.continuum_grid))
+    for omega, row, bare in zip(above, coupled, uncoupled):
+        converged = row.converged and bare.converged
+        if not converged:
+            out.warnings.append(f"response: the outgoing-wave {name} solve at {omega:g} hartree did not converge"
+                                f" (residual {row.residual:.1e}); the value is flagged")
+        out.polarizabilities.append(Polarizability(
+            multipole=L, frequency=omega, imaginary=False, coupled=row.real_part, uncoupled=bare.real_part,
+            coupled_imaginary_part=row.imaginary_part, uncoupled_imaginary_part=bare.imaginary_part,
+            converged=converged, krylov_iterations=row.krylov_iterations, r_max=state.r_max,
+            residual=max(row.residual, bare.residual), method="outgoing waves",
+        ))
 
 
 def _sum_rules(state, solver, name, request: _Request, spectrum, out: _Collected,
