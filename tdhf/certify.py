@@ -4,7 +4,9 @@ A number is only as good as the least converged approximation behind it, so the 
 reruns the deck once per approximation and takes, for each number, the largest change:
 
 ``grid``
-    :meth:`GridSettings.refined` (element order + 4, growth 0.75 x (g - 1) + 1);
+    :meth:`GridSettings.refined` (element order + 4, growth 0.75 x (g - 1) + 1), and the scaled
+    continuum grid refined (:meth:`ContinuumGridSettings.refined`: order + 2, another scaling
+    angle, longer real and absorbing regions);
 ``box``
     a fixed box :data:`BOX_FACTOR` times the largest box the run used (ground state and every
     response box), so Rydberg lines and near-resonance responses feel it;
@@ -57,7 +59,7 @@ def variations(deck: Deck, result: RunResult) -> dict[str, Deck]:
              *(state.r_max for state in result.partner_ground_states)]
     box = min(BOX_FACTOR * max(boxes), MAX_VARIATION_BOX)
     out = {
-        "grid": dataclasses.replace(deck, grid=deck.grid.refined()),
+        "grid": dataclasses.replace(deck, grid=deck.grid.refined(), continuum_grid=deck.continuum_grid.refined()),
         "box": dataclasses.replace(deck, grid=dataclasses.replace(deck.grid, r_max=box)),
         "tolerances": dataclasses.replace(deck, scf=deck.scf.tightened(TOLERANCE_FACTOR),
                                           tolerances=deck.tolerances.tightened(TOLERANCE_FACTOR)),

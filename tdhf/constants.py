@@ -26,6 +26,7 @@ __all__ = [
     "HARTREE_HERTZ",
     "hartree_to_ev",
     "CODATA_KEYS",
+    "BOHR2_MEGABARN",
 ]
 
 #: The CODATA entries used, by the name scipy gives them.
@@ -52,6 +53,9 @@ HARTREE_INVERSE_METER: float = physical_constants[CODATA_KEYS["hartree_inverse_m
 
 #: The frequency E/h of one hartree, Hz.
 HARTREE_HERTZ: float = physical_constants[CODATA_KEYS["hartree_hertz"]][0]
+
+#: One bohr^2 in megabarn (1 Mb = 1e-22 m^2): cross sections in the terminal and tables.
+BOHR2_MEGABARN: float = physical_constants[CODATA_KEYS["bohr_m"]][0] ** 2 / 1e-22
 
 #: One bohr in angstrom.
 BOHR_ANGSTROM: float = physical_constants[CODATA_KEYS["bohr_m"]][0] * 1e10

@@ -80,6 +80,7 @@ from tdhf.elements import atomic_number, symbol
 from tdhf.errors import DeckError, FrequencyError, InputError, UnknownElementError
 from tdhf.accuracy import ACCURACY_PRESETS
 from tdhf.ground_state import starting_box
+from tdhf.radial.exterior_scaling import ContinuumGridSettings
 from tdhf.radial.mesh import GridSettings, check_grid_size
 from tdhf.response.solver import ResponseTolerances
 from tdhf.scf import ScfSettings
@@ -191,7 +192,9 @@ class Deck:
     """A validated deck: one field per table (None for an absent optional calculation).
 
     ``accuracy`` names the preset (tdhf.accuracy) that ``grid``, ``scf`` and ``tolerances`` started
-    from; the [grid] and [scf] keys of the deck override it.
+    from; the [grid] and [scf] keys of the deck override it.  ``continuum_grid`` is the scaled grid
+    of photoionization and of real frequencies above the threshold (not a deck key: the
+    certificate varies it).
     """
 
     atom: AtomSection
@@ -202,6 +205,7 @@ class Deck:
     schema: int = SCHEMA_VERSION
     accuracy: str = "default"
     tolerances: ResponseTolerances = ResponseTolerances()
+    continuum_grid: ContinuumGridSettings = ContinuumGridSettings()
     photoionization: PhotoionizationSection | None = None
 
 
@@ -654,8 +658,23 @@ def _quoted(names: Mapping[str, Any] | tuple[str, ...]) -> str:
 # [photoionization]
 
 
+def _energy(path: str, item: Any) -> float:
+    """A photon energy: a number in hartree or a string with a unit ("40 eV", "30 nm"; tdhf.units)."""
+    if isinstance(item, str):
+        try:
+            value = parse_frequency(item, path)
+        except InputError as err:
+            raise FrequencyError(str(err)) from None
+    else:
+        value = _number(path, item)
+    if value > MAX_FREQUENCY:
+        raise FrequencyError(f"{path}: {value!r} hartree is above the largest allowed frequency, {MAX_FREQUENCY:g}")
+    return value
+
+
 def parse_photoionization(table: Mapping[str, Any]) -> PhotoionizationSection:
-    """``[photoionization]``: ``photon_energies = [...]`` and/or ``range = [low, high]`` (hartree).
+    """``[photoionization]``: ``photon_energies = [...]`` and/or ``range = [low, high]`` (hartree, or
+    strings with a unit such as ``"40 eV"``).
 
     Photon energies at or below the first ionization threshold are refused when the atom has
     been solved (the threshold is not known before); here only the form is checked.
@@ -668,8 +687,9 @@ def parse_photoionization(table: Mapping[str, Any]) -> PhotoionizationSection:
         raise DeckError("photoionization: give photon_energies = [...] (hartree) or range = [low, high]"
                         " for an adaptive grid")
     energies = []
-    for i, item in enumerate(_array("photoionization.photon_energies", table.get("photon_energies", []), True)):
-        energy = _number(f"photoionization.photon_energies[{i}]", item)
+    for i, item in enumerate(_array("photoionization.photon_energies", table.get("photon_energies", []), True,
+                                    longest=MAX_FREQUENCIES)):
+        energy = _energy(f"photoionization.photon_energies[{i}]", item)
         if energy <= 0.0:
             raise DeckError(f"photoionization.photon_energies[{i}]: {energy!r} is not > 0; photon energies are"
                             " in hartree")
@@ -677,7 +697,7 @@ def parse_photoionization(table: Mapping[str, Any]) -> PhotoionizationSection:
     window = None
     if "range" in table:
         bounds = _array("photoionization.range", table["range"], allow_empty=False)
-        values = [_number(f"photoionization.range[{i}]", item) for i, item in enumerate(bounds)]
+        values = [_energy(f"photoionization.range[{i}]", item) for i, item in enumerate(bounds)]
         if len(values) != 2 or not 0.0 < values[0] < values[1]:
             raise DeckError(f"photoionization.range: {_toml_value(values)} is not [low, high] with"
                             " 0 < low < high (hartree)")

@@ -44,6 +44,7 @@ from tdhf.properties.photoionization import (
 from tdhf.properties.response_properties import NORMALIZATION, compute_response
 from tdhf.properties.spectrum import Excitation, StrengthDistribution
 from tdhf.properties.sum_rules import SumRule
+from tdhf.radial.exterior_scaling import ContinuumGridSettings
 from tdhf.radial.mesh import GridSettings
 from tdhf.response.solver import ResponseTolerances
 from tdhf.scf import ScfSettings
@@ -298,7 +299,8 @@ def run_deck(deck: Deck, progress: Progress | None = None, map_tasks: TaskMap | 
     else:
         if deck.response is not None:
             report(f"response of {system.name}")
-            response_fields, library_notes, driver_notes = _run_response(ground_state, deck.response, deck.tolerances)
+            response_fields, library_notes, driver_notes = _run_response(ground_state, deck.response, deck.tolerances,
+                                                                         deck.continuum_grid)
             fields |= response_fields
             notes += library_notes
             own_notes += driver_notes
@@ -308,7 +310,8 @@ def run_deck(deck: Deck, progress: Progress | None = None, map_tasks: TaskMap | 
             notes += library_notes
         if deck.photoionization is not None:
             report(f"photoionization of {system.name}")
-            continuum = compute_photoionization(ground_state, deck.photoionization, map_tasks=map_tasks)
+            continuum = compute_photoionization(ground_state, deck.photoionization, deck.continuum_grid,
+                                                map_tasks=map_tasks)
             fields |= {"photoionization": continuum.photoionization, "resonances": continuum.resonances,
                        "continuum": continuum.continuum,
                        "rejected": tuple(fields.get("rejected", ())) + continuum.rejected}
@@ -320,7 +323,8 @@ def run_deck(deck: Deck, progress: Progress | None = None, map_tasks: TaskMap | 
 
 
 def _run_response(
-    ground_state: GroundState, section: ResponseSection, tolerances: ResponseTolerances
+    ground_state: GroundState, section: ResponseSection, tolerances: ResponseTolerances,
+    continuum_grid: ContinuumGridSettings,
 ) -> tuple[dict[str, tuple], tuple[str, ...], tuple[str, ...]]:
     """Response rows by RunResult field, the notes of tdhf.response, and the driver's notes."""
     results = compute_response(
@@ -333,6 +337,7 @@ def _run_response(
         excitation_count=section.excitations,
         tolerances=tolerances,
         eigen_tolerance=tolerances.eigen_tolerance,
+        continuum_grid=continuum_grid,
     )
     fields = {name: tuple(getattr(results, name)) for name in RESPONSE_FIELDS}
     fields["rejected"] = tuple(results.rejected)

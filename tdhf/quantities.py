@@ -7,10 +7,13 @@ plots are built from these rows; the typed result objects stay the API.
 
 Property names (extend, never rename): ``total_energy``, ``orbital_energy`` (``orbital`` set),
 ``polarizability`` (``level`` coupled or uncoupled), ``polarizability_velocity_form``,
-``polarizability_imaginary_part`` (broadened frequencies), ``dipole_shielding``,
+``polarizability_imaginary_part`` (broadened frequencies and above the threshold), ``dipole_shielding``,
 ``quadrupole_shielding``, ``sum_rule`` (``k`` set), ``excitation_energy`` and
 ``oscillator_strength`` (``index``: 1 for the lowest listed line of the multipole), ``C6``,
-``C8``, ``C10`` (``partner`` set).  Frequencies are in hartree (nu for ``imaginary``); units are
+``C8``, ``C10`` (``partner`` set), ``cross_section`` (coupled or uncoupled, length form; the
+photon energy in ``frequency``), ``cross_section_velocity``, ``partial_cross_section``
+(``orbital``: the hole subshell), ``resonance_energy`` and ``resonance_width`` (``index``,
+``orbital``: the hole).  Frequencies are in hartree (nu for ``imaginary``); units are
 words such as ``bohr^3`` or ``hartree``.
 
 >>> from tdhf.deck import parse_deck
@@ -126,7 +129,7 @@ def _rows(result: RunResult) -> Iterator[Quantity]:
         yield Quantity(name, "polarizability", row.uncoupled, unit, f"{path}.uncoupled", level="uncoupled", **common)
         yield Quantity(name, "polarizability_velocity_form", row.velocity_form, unit, f"{path}.velocity_form",
                        level="coupled", **common)
-        if row.broadening:
+        if row.broadening or row.method == "outgoing waves":
             yield Quantity(name, "polarizability_imaginary_part", row.coupled_imaginary_part, unit,
                            f"{path}.coupled_imaginary_part", level="coupled", **common)
             yield Quantity(name, "polarizability_imaginary_part", row.uncoupled_imaginary_part, unit,
@@ -153,6 +156,22 @@ def _rows(result: RunResult) -> Iterator[Quantity]:
         yield Quantity(name, "oscillator_strength", row.oscillator_strength,
                        property_unit("oscillator_strength", row.multipole),
                        f"excitations[{i}].oscillator_strength", **common)
+    for i, row in enumerate(result.photoionization):
+        common = dict(multipole=1, frequency=row.photon_energy, imaginary=False, converged=row.converged)
+        path = f"photoionization[{i}]"
+        yield Quantity(name, "cross_section", row.cross_section, "bohr^2", f"{path}.cross_section",
+                       level="coupled", **common)
+        yield Quantity(name, "cross_section_velocity", row.cross_section_velocity, "bohr^2",
+                       f"{path}.cross_section_velocity", level="coupled", **common)
+        yield Quantity(name, "cross_section", row.cross_section_uncoupled, "bohr^2",
+                       f"{path}.cross_section_uncoupled", level="uncoupled", **common)
+        for j, partial in enumerate(row.partial):
+            yield Quantity(name, "partial_cross_section", partial.cross_section, "bohr^2",
+                           f"{path}.partial[{j}].cross_section", orbital=partial.subshell, level="coupled", **common)
+    for i, row in enumerate(result.resonances):
+        common = dict(multipole=1, index=i + 1, orbital=row.subshell, level="coupled")
+        yield Quantity(name, "resonance_energy", row.energy, "hartree", f"resonances[{i}].energy", **common)
+        yield Quantity(name, "resonance_width", row.width, "hartree", f"resonances[{i}].width", **common)
     for i, state in enumerate(result.partner_ground_states):
         if state.system != result.atom:
             yield Quantity(state.system.name, "total_energy", state.total_energy, "hartree",
@@ -192,8 +211,10 @@ def property_unit(property: str, multipole: int | None = None, k: int | None = N
 
     Oscillator strengths f = 2 omega |<n|r^L P_L|0>|^2 are in bohr^(2L-2) (dimensionless for L = 1).
     """
-    if property in ("total_energy", "orbital_energy", "excitation_energy"):
+    if property in ("total_energy", "orbital_energy", "excitation_energy", "resonance_energy", "resonance_width"):
         return "hartree"
+    if property in ("cross_section", "cross_section_velocity", "partial_cross_section"):
+        return "bohr^2"
     if property.startswith("polarizability"):
         return multipole_unit(multipole)
     if property == "sum_rule":

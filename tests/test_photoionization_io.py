@@ -13,7 +13,7 @@ import pytest
 from tdhf.deck import format_deck, parse_deck
 from tdhf.driver import run_deck
 from tdhf.report.json_result import result_to_json
-from tdhf.errors import DeckError
+from tdhf.errors import DeckError, InputError
 from tdhf.properties.photoionization import PhotoionizationSection
 
 HE = '[atom]\nelement = "He"\n'
@@ -30,7 +30,7 @@ def test_table_is_read_and_written_back():
     ("", "photoionization: give photon_energies"),
     ("photon_energies = [1.0, -2.0]", "photoionization.photon_energies[1]"),
     ("photon_energies = [1.0, 1.0]", "photoionization.photon_energies[1]"),
-    ('photon_energies = ["1"]', "photoionization.photon_energies[0]"),
+    ('photon_energies = ["1 parsec"]', "photoionization.photon_energies[0]"),
     ("range = [3.0, 1.0]", "photoionization.range"),
     ("range = [1.0, 2.0, 3.0]", "photoionization.range"),
     ("sum_rules = 1\nrange = [1, 2]", "photoionization.sum_rules"),
@@ -95,3 +95,30 @@ def test_command_line_exit_code_and_json(tmp_path):
     assert run.returncode == 2
     assert run.stderr.count("\n") == 1 and "photoionization.photon_energies[0]" in run.stderr
     assert json.loads(out.read_text())["photoionization"][0]["photon_energy"] == 1.5
+
+
+def test_photon_energies_take_units():
+    """CODATA (scipy.constants): "40.8 eV" is 40.8 / 27.211386... hartree; a wavelength is hc/lambda."""
+    from scipy.constants import physical_constants
+
+    deck = parse_deck('[atom]\nelement = "He"\n[photoionization]\nphoton_energies = ["40.8 eV", 1.5]\n'
+                      'range = ["30 eV", "2 hartree"]\n')
+    hartree_ev = physical_constants["Hartree energy in eV"][0]
+    assert deck.photoionization.photon_energies == pytest.approx((40.8 / hartree_ev, 1.5), rel=1e-15)
+    assert deck.photoionization.range == pytest.approx((30.0 / hartree_ev, 2.0), rel=1e-15)
+    with pytest.raises(InputError, match=r"photoionization\.photon_energies\[0\]"):
+        parse_deck('[atom]\nelement = "He"\n[photoionization]\nphoton_energies = ["40 furlongs"]\n')
+
+
+def test_a_photon_energy_too_large_for_the_grid_is_refused_with_the_limit(tmp_path):
+    """Every setting runs in bounded memory or is refused: a 2000-hartree photon needs ~7000 scaled-grid
+    points; it is refused (exit 2) naming the key and the largest energy that fits, the others computed."""
+    deck = tmp_path / "he.toml"
+    deck.write_text('[atom]\nelement = "He"\n[photoionization]\nphoton_energies = [1.5, 2000.0]\nsum_rules = false\n')
+    run = subprocess.run([sys.executable, "-m", "tdhf", "run", str(deck), "--json", str(tmp_path / "out.json"), "-q"],
+                         capture_output=True, text=True, timeout=120)
+    assert run.returncode == 2 and "Traceback" not in run.stderr
+    assert "photoionization.photon_energies[1]: 2000 hartree needs a continuum grid of" in run.stderr
+    assert "the largest photon energy that fits is" in run.stderr
+    data = json.loads((tmp_path / "out.json").read_text())
+    assert [row["photon_energy"] for row in data["photoionization"]] == [1.5]

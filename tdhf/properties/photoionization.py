@@ -68,8 +68,8 @@ from tdhf.ground_state import GroundState
 from tdhf.numerics.tasks import TaskMap
 from tdhf.numerics.threads import single_blas_thread
 from tdhf.properties.dispersion import imaginary_frequency_rule
-from tdhf.radial.exterior_scaling import ContinuumGridSettings
-from tdhf.response.continuum import ContinuumSolver, OutgoingWaveOrbitals, build_continuum_solver
+from tdhf.radial.exterior_scaling import ContinuumGridSettings, continuum_boundaries
+from tdhf.response.continuum import INNER_DECAY, ContinuumSolver, OutgoingWaveOrbitals, build_continuum_solver
 
 __all__ = [
     "PhotoionizationSection",
@@ -85,6 +85,10 @@ __all__ = [
     "ContinuumPolarizability",
     "compute_photoionization",
     "continuum_polarizabilities",
+    "continuum_grid_points",
+    "largest_energy_that_fits",
+    "frequencies_that_fit",
+    "MAX_CONTINUUM_POINTS",
     "continuum_polarizability",
     "SPEED_OF_LIGHT",
     "CROSS_SECTION_CONVENTION",
@@ -770,6 +774,49 @@ def _resonances(state: _Photoionization, samples: dict, low: float, high: float)
 SMALLEST_MOMENTUM = 0.02
 
 
+#: Most points of a continuum grid (memory ~ channels x points^2 per kernel; measured: Rn at 2000 points 0.8 GB
+#: for heavy atoms): photon energies that need more are refused, naming the largest that fits.
+MAX_CONTINUUM_POINTS = 2000
+
+
+def continuum_grid_points(ground_state: GroundState, energies: Sequence[float],
+                          settings: ContinuumGridSettings = ContinuumGridSettings()) -> int:
+    """Points of the scaled grid that photon energies (or frequencies) ``energies`` would need."""
+    threshold_energies = [-float(o.energy) for o in ground_state.orbitals]
+    largest, smallest = _momenta(energies, threshold_energies)
+    boundaries, _, _ = continuum_boundaries(
+        settings, ground_state.system.Z, INNER_DECAY / math.sqrt(-2.0 * ground_state.homo_energy),
+        max(largest, 1.0), max(min(smallest, SMALLEST_MOMENTUM), 1e-3))
+    return (len(boundaries) - 1) * settings.order
+
+
+def largest_energy_that_fits(ground_state: GroundState, settings: ContinuumGridSettings = ContinuumGridSettings()) -> float:
+    """The largest photon energy (hartree) whose continuum grid stays within MAX_CONTINUUM_POINTS (bisection)."""
+    low, high = -ground_state.homo_energy * 1.01, 1e6
+    for _ in range(60):
+        middle = math.sqrt(low * high)
+        if continuum_grid_points(ground_state, [middle], settings) <= MAX_CONTINUUM_POINTS:
+            low = middle
+        else:
+            high = middle
+    return low
+
+
+def frequencies_that_fit(ground_state: GroundState, key: str, energies: Sequence[float], settings: ContinuumGridSettings,
+             rejected: list[str], indices: Sequence[int] | None = None) -> list[float]:
+    """The energies whose grid fits; the others become one-line refusals naming ``key``."""
+    kept = []
+    for i, omega in zip(indices if indices is not None else range(len(energies)), energies):
+        points = continuum_grid_points(ground_state, [omega], settings)
+        if points > MAX_CONTINUUM_POINTS:
+            rejected.append(f"{key}[{i}]: {omega:g} hartree needs a continuum grid of {points} points (more than"
+                            f" {MAX_CONTINUUM_POINTS}); the largest photon energy that fits is"
+                            f" {largest_energy_that_fits(ground_state, settings):.4g} hartree")
+        else:
+            kept.append(omega)
+    return kept
+
+
 def _solver_for(ground_state: GroundState, multipole: int, energies: Sequence[float],
                 settings: ContinuumGridSettings, notes: list[str]) -> tuple[ContinuumSolver, ContinuumGrid, bool]:
     """A continuum solver sized for ``energies``, with the grid summary and whether its SCF converged."""
@@ -837,6 +884,13 @@ def compute_photoionization(
     ordered = thresholds(ground_state)
     first = ordered[0]
     energies, window = _accepted(section, first.energy, first.subshell, rejected)
+    indices = [i for i, omega in enumerate(section.photon_energies) if omega in energies]
+    energies = frequencies_that_fit(ground_state, "photoionization.photon_energies", energies, settings, rejected, indices)
+    if window and continuum_grid_points(ground_state, [window[1]], settings) > MAX_CONTINUUM_POINTS:
+        rejected.append(f"photoionization.range: the upper end {window[1]:g} hartree needs more than"
+                        f" {MAX_CONTINUUM_POINTS} grid points; the largest photon energy that fits is"
+                        f" {largest_energy_that_fits(ground_state, settings):.4g} hartree")
+        window = None
     wanted = energies + (list(window) if window else [])
     if section.sum_rules:
         wanted.append(max(3.0 * first.energy, first.energy + 1.0) + 1.0)

@@ -40,7 +40,7 @@ from tdhf.errors import FrequencyError, InputError
 from tdhf.ground_state import GroundState, solve_ground_state
 from tdhf.numerics.status import combine
 from tdhf.numerics.threads import single_blas_thread
-from tdhf.properties.photoionization import continuum_polarizabilities
+from tdhf.properties.photoionization import frequencies_that_fit, continuum_polarizabilities
 from tdhf.properties.polarizability import DipoleShielding, Polarizability, QuadrupoleShielding, VelocityForm
 from tdhf.properties.spectrum import (
     Excitation,
@@ -433,7 +433,9 @@ def _continuum_rows(state: GroundState, L: int, name: str, request: _Request, ou
     and uncoupled; the imaginary parts are the absorption (for L = 1, sigma = 4 pi omega Im alpha / c).
     """
     threshold = -float(state.orbital_energies.max())
-    above = [omega for omega in request.frequencies if omega > threshold * (1.0 + RESONANCE_MARGIN)]
+    indices = [i for i, omega in enumerate(request.frequencies) if omega > threshold * (1.0 + RESONANCE_MARGIN)]
+    above = frequencies_that_fit(state, "response.frequencies", [request.frequencies[i] for i in indices], request.continuum_grid,
+                     out.rejected, indices)
     if not above:
         return
     coupled = continuum_polarizabilities(state, L, above, request.coupled, request.continuum_grid)

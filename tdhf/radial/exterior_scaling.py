@@ -22,6 +22,8 @@ Hamiltonian is complex *symmetric*, not Hermitian.  The last node (r = r_max) is
 
 from __future__ import annotations
 
+import dataclasses
+
 from dataclasses import dataclass
 
 import numpy as np
@@ -183,6 +185,14 @@ class ContinuumGridSettings:
     @property
     def momentum_resolution(self) -> float:
         return self.resolution if self.resolution is not None else 0.9 * self.order - 2.0
+
+    def refined(self) -> "ContinuumGridSettings":
+        """A clearly different and finer scaled grid for certificates: order + 2, slower growth,
+        another scaling angle (0.6 for 0.8), and longer real and absorbing regions."""
+        return dataclasses.replace(
+            self, order=min(self.order + 2, 24), growth=1.0 + 0.75 * (self.growth - 1.0),
+            angle=0.75 * self.angle, extension=1.25 * self.extension, absorbing_length=1.25 * self.absorbing_length,
+        )
 
 
 def continuum_boundaries(

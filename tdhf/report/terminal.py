@@ -24,7 +24,7 @@ from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
-from tdhf.constants import HARTREE_EV
+from tdhf.constants import BOHR2_MEGABARN, HARTREE_EV
 
 if TYPE_CHECKING:  # only for annotations: the report layer reads results, it does not run them
     from tdhf.driver import RunResult
@@ -82,7 +82,8 @@ class Column:
     """One table column: header (with unit), how to get the value from a row, how to format it.
 
     ``key`` names the result field of a certifiable number: its digits then follow its
-    uncertainty (module docstring); columns without a key use ``format``.
+    uncertainty (module docstring); columns without a key use ``format``.  ``scale`` converts a
+    key column's value and uncertainty for display (e.g. bohr^2 to Mb).
     """
 
     header: str
@@ -90,6 +91,7 @@ class Column:
     format: str = ".8g"
     optional: bool = False  # left out when every row has None or 0 (e.g. imaginary parts without broadening)
     key: str | None = None
+    scale: float = 1.0
 
 
 def _field(name: str) -> Callable[[Any], Any]:
@@ -189,6 +191,24 @@ ROW_TABLES: dict[str, tuple[str, tuple[Column, ...]]] = {
         Column("continuum\n(sum f)", _field("continuum_sum"), ".8g"),
         Column("S(0)\n(sum f)", _field("total"), ".10g"),
     )),
+    "photoionization": ("Photoionization cross sections (TDHF/RPA; 1 Mb = 1e-22 m^2)", (
+        Column("photon energy\n(hartree)", _field("photon_energy"), ".6f"),
+        Column("photon energy\n(eV)", _in_ev("photon_energy"), ".4f"),
+        Column("sigma, length\n(Mb)", _field("cross_section"), key="cross_section", scale=BOHR2_MEGABARN),
+        Column("sigma, velocity\n(Mb)", _field("cross_section_velocity"), key="cross_section_velocity",
+               scale=BOHR2_MEGABARN),
+        Column("sigma, uncoupled\n(Mb)", _field("cross_section_uncoupled"), key="cross_section_uncoupled",
+               scale=BOHR2_MEGABARN),
+        Column("partial by hole\n(Mb)", lambda row: "  ".join(
+            f"{_field('subshell')(p)} {_field('cross_section')(p) * BOHR2_MEGABARN:.5g}" for p in _field("partial")(row))),
+        Column("converged", _flag("converged")),
+    )),
+    "resonances": ("Autoionizing resonances", (
+        Column("energy\n(hartree)", _field("energy"), ".8f"),
+        Column("energy\n(eV)", _in_ev("energy"), ".5f"),
+        Column("full width\n(hartree)", _field("width"), ".4e"),
+        Column("hole", _field("subshell")),
+    )),
     "certification": ("Certificate: each number with the grid, box, tolerances and quadrature varied", (
         Column("quantity", _field("quantity")),
         Column("value", _field("value"), ".12g"),
@@ -207,6 +227,25 @@ ROW_TABLES: dict[str, tuple[str, tuple[Column, ...]]] = {
     )),
 }
 
+
+#: Columns of the whole-spectrum sum rules of a [photoionization] run (tdhf.properties.photoionization).
+CONTINUUM_SUM_RULE_COLUMNS = (
+    Column("k", _field("k")),
+    Column("bound lines\n(a.u.)", _field("bound"), ".10g"),
+    Column("continuum\n(a.u.)", _field("continuum"), ".10g"),
+    Column("remainder\n(a.u.)", _field("remainder"), ".10g"),
+    Column("total\n(a.u.)", _field("total"), ".10g"),
+    Column("exact\n(a.u.)", _field("exact"), ".10g"),
+    Column("relative\ndifference", _field("relative_difference"), ".1e"),
+    Column("converged", _flag("converged")),
+)
+KRAMERS_KRONIG_COLUMNS = (
+    Column("nu\n(hartree)", _field("imaginary_frequency"), ".6g"),
+    Column("from the spectrum\n(bohr^3)", _field("rebuilt"), ".10g"),
+    Column("direct\n(bohr^3)", _field("direct"), ".10g"),
+    Column("relative\ndifference", _field("relative_difference"), ".1e"),
+    Column("converged", _flag("converged")),
+)
 
 #: Columns of the ``tdhf series`` summary (rows are tdhf.series.SeriesEntry).
 SERIES_COLUMNS = (
@@ -300,7 +339,9 @@ def rows_table(
             value = column.value(row)
             if column.key is not None and list_name is not None and isinstance(value, (int, float)) \
                     and not isinstance(value, bool):
-                cells.append(format_value(value, (uncertainties or {}).get(f"{list_name}[{i}].{column.key}")))
+                uncertainty = (uncertainties or {}).get(f"{list_name}[{i}].{column.key}")
+                cells.append(format_value(value * column.scale,
+                                          None if uncertainty is None else uncertainty * column.scale))
             else:
                 cells.append(_cell(value, column.format))
         table.add_row(*cells)
@@ -338,5 +379,12 @@ def print_report(console: Console, result: "RunResult") -> None:
             console.print(rows_table(title, rows, columns, uncertainties, None if name == "certification" else name))
         if name == "dispersion" and result.polarizability_tables:
             console.print(dispersion_systems_table(result, uncertainties))
+    continuum = getattr(result, "continuum", None)
+    if continuum is not None and continuum.sum_rules:
+        console.print(rows_table("Sum rules over bound lines and continuum (dipole)", continuum.sum_rules,
+                                 CONTINUUM_SUM_RULE_COLUMNS))
+    if continuum is not None and continuum.kramers_kronig:
+        console.print(rows_table("Kramers-Kronig: alpha(i nu) from the spectrum against the direct solve",
+                                 continuum.kramers_kronig, KRAMERS_KRONIG_COLUMNS))
     if any(getattr(result, name) for name in ROW_TABLES if name != "certification") and not uncertainties:
         console.print(UNCERTIFIED_NOTE)
