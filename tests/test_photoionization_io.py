@@ -37,7 +37,7 @@ def test_table_is_read_and_written_back():
     ("energies = [1.0]", "photoionization.energies"),
 ])
 def test_bad_tables_name_the_key(table, key):
-    with pytest.raises(DeckError) as error:
+    with pytest.raises(InputError) as error:
         parse_deck(HE + "[photoionization]\n" + table + "\n")
     assert str(error.value).startswith(key) and "\n" not in str(error.value)
 
