@@ -60,6 +60,8 @@ _SERIES_EXIT = {"ok": EXIT_OK, "skipped": EXIT_OK, "input error": EXIT_INPUT, "r
 FILE_WIDTH = 120
 
 logger = logging.getLogger("tdhf.cli")
+#: Environment variables that set the thread count of the common BLAS/OpenMP builds.
+BLAS_THREAD_VARIABLES = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")
 
 
 def worst_exit_code(codes: Iterable[int]) -> int:
@@ -115,6 +117,7 @@ def build_parser() -> argparse.ArgumentParser:
     run = commands.add_parser("run", parents=[common], help="run a deck (TOML file)",
                               description="Run the calculation described by a deck.")
     run.add_argument("deck", metavar="DECK.toml", type=Path)
+    add_parallel_options(run, "dispersion responses, photon energies and certificate runs")
 
     atom = commands.add_parser("atom", parents=[common], help="one atom or ion without a deck",
                                description="Ground state (and optionally response) of one system.")
@@ -341,6 +344,10 @@ def main(argv: Sequence[str] | None = None, stdout: TextIO | None = None, stderr
         return EXIT_INPUT
     except SystemExit as done:  # --help, --version
         return done.code if isinstance(done.code, int) else EXIT_OK
+    # tdhf runs its dense algebra on one BLAS thread (tdhf.numerics.threads); saying so before numpy
+    # loads spares the start-up of a thread pool that would only spin (measured: 0.2 s CPU per run).
+    for name in BLAS_THREAD_VARIABLES:
+        os.environ.setdefault(name, "1")
     from rich.console import Console
 
     level = logging.ERROR if args.quiet else logging.DEBUG if args.verbose else logging.WARNING

@@ -49,9 +49,9 @@ from typing import Sequence
 import numpy as np
 import scipy.linalg
 from scipy.linalg.lapack import zgbtrf, zgbtrs
-from scipy.sparse.linalg import LinearOperator, gmres
 
 from tdhf.angular import response_exchange_factors
+from tdhf.numerics.krylov import gmres
 from tdhf.numerics.threads import single_blas_thread
 from tdhf.potentials import direct_potential, exchange_operator
 from tdhf.radial.exterior_scaling import ContinuumGridSettings, ScaledGrid, continuum_boundaries
@@ -409,15 +409,9 @@ class ContinuumSolver:
                 return vector - np.concatenate([plus.ravel(), minus.ravel()])
 
             start = np.concatenate([plus0.ravel(), minus0.ravel()])
-            operator = LinearOperator((start.size, start.size), matvec=apply, dtype=complex)
-            count = [0]
-
-            def callback(_):
-                count[0] += 1
-
-            solution, _ = gmres(operator, start, x0=start, rtol=tolerance, atol=0.0, restart=KRYLOV_RESTART,
-                                maxiter=max_cycles, callback=callback, callback_type="pr_norm")
-            steps = count[0]
+            solution, status = gmres(apply, start, x0=start, tolerance=tolerance,
+                                     max_iterations=max_cycles * KRYLOV_RESTART, restart=KRYLOV_RESTART)
+            steps = status.iterations
             plus, minus = solution[:split].reshape(plus0.shape), solution[split:].reshape(minus0.shape)
             image_plus, image_minus = images(solution)
             for i in range(len(scales)):
