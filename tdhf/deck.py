@@ -87,7 +87,7 @@ from tdhf.scf import ScfSettings
 from tdhf.system import System
 from tdhf.units import parse_frequency
 from tdhf.properties.dispersion import DEFAULT_QUADRATURE_POINTS, QUADRATURE_RANGE
-from tdhf.properties.photoionization import PhotoionizationSection
+from tdhf.properties.photoionization_rows import PhotoionizationSection
 
 __all__ = [
     "SCHEMA_VERSION",

@@ -33,13 +33,12 @@ from tdhf.properties.dispersion import (
     dispersion_table,
 )
 from tdhf.properties.polarizability import DipoleShielding, Polarizability, QuadrupoleShielding
-from tdhf.properties.photoionization import (
+from tdhf.properties.photoionization_rows import (
     CROSS_SECTION_CONVENTION,
     ContinuumSummary,
     PhotoionizationPoint,
     PhotoionizationSection,
     Resonance,
-    compute_photoionization,
 )
 from tdhf.properties.response_properties import NORMALIZATION, compute_response
 from tdhf.properties.spectrum import Excitation, StrengthDistribution
@@ -310,6 +309,8 @@ def run_deck(deck: Deck, progress: Progress | None = None, map_tasks: TaskMap | 
             notes += library_notes
         if deck.photoionization is not None:
             report(f"photoionization of {system.name}")
+            from tdhf.properties.photoionization import compute_photoionization  # the continuum solver, when asked
+
             continuum = compute_photoionization(ground_state, deck.photoionization, deck.continuum_grid,
                                                 map_tasks=map_tasks)
             fields |= {"photoionization": continuum.photoionization, "resonances": continuum.resonances,

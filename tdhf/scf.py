@@ -24,7 +24,6 @@ from dataclasses import dataclass, replace
 from typing import Protocol, Sequence
 
 import numpy as np
-import scipy.linalg
 
 from tdhf.errors import InputError
 from tdhf.numerics.diis import Diis
@@ -181,7 +180,7 @@ def _occupied_from_fock(
     for l, matrix in fock.items():
         indices = [(i, s.n - l - 1) for i, s in enumerate(specs) if s.l == l]
         top = max(j for _, j in indices)
-        values, vectors = scipy.linalg.eigh(matrix, subset_by_index=[0, top], driver="evr")
+        values, vectors = np.linalg.eigh(matrix)  # all pairs: cheap at these sizes, and no scipy import
         for i, j in indices:
             orbitals[i] = _fix_sign(vectors[:, j])
             energies[i] = values[j]

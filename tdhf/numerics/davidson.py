@@ -47,7 +47,6 @@ from dataclasses import dataclass
 from typing import Callable
 
 import numpy as np
-import scipy.linalg
 
 from tdhf.numerics.status import SolveStatus
 
@@ -152,14 +151,13 @@ def _small_problem(t_small: np.ndarray, s_small: np.ndarray, roots: int):
         lower_s = np.linalg.cholesky(s_small)
     except np.linalg.LinAlgError:
         return None
-    c = scipy.linalg.solve_triangular(lower_t, scipy.linalg.solve_triangular(lower_s, np.eye(len(s_small)), lower=True).T,
-                                      lower=True)
+    c = np.linalg.solve(lower_t, np.linalg.solve(lower_s, np.eye(len(s_small))).T)
     u, sigma, wt = np.linalg.svd(c)
     if sigma[min(roots, sigma.size) - 1] <= 0.0 or sigma.size < roots:
         return None
     sigma, u, w = sigma[:roots], u[:, :roots], wt[:roots].T
-    p_small = scipy.linalg.solve_triangular(lower_t.T, u, lower=False) / np.sqrt(sigma)
-    q_small = scipy.linalg.solve_triangular(lower_s.T, w, lower=False) / np.sqrt(sigma)
+    p_small = np.linalg.solve(lower_t.T, u) / np.sqrt(sigma)
+    q_small = np.linalg.solve(lower_s.T, w) / np.sqrt(sigma)
     return 1.0 / sigma, p_small.T, q_small.T
 
 

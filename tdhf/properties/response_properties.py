@@ -40,7 +40,6 @@ from tdhf.errors import FrequencyError, InputError
 from tdhf.ground_state import GroundState, solve_ground_state
 from tdhf.numerics.status import combine
 from tdhf.numerics.threads import single_blas_thread
-from tdhf.properties.photoionization import frequencies_that_fit, continuum_polarizabilities
 from tdhf.properties.polarizability import DipoleShielding, Polarizability, QuadrupoleShielding, VelocityForm
 from tdhf.properties.spectrum import (
     Excitation,
@@ -432,6 +431,8 @@ def _continuum_rows(state: GroundState, L: int, name: str, request: _Request, ou
     Solved on an exterior-complex-scaled grid (:mod:`tdhf.properties.photoionization`), coupled
     and uncoupled; the imaginary parts are the absorption (for L = 1, sigma = 4 pi omega Im alpha / c).
     """
+    from tdhf.properties.photoionization import continuum_polarizabilities, frequencies_that_fit  # when needed
+
     threshold = -float(state.orbital_energies.max())
     indices = [i for i, omega in enumerate(request.frequencies) if omega > threshold * (1.0 + RESONANCE_MARGIN)]
     above = frequencies_that_fit(state, "response.frequencies", [request.frequencies[i] for i in indices], request.continuum_grid,

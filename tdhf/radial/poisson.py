@@ -22,7 +22,6 @@ The potential :math:`Y^k(r_i)/r_i` felt at node i is :math:`(V^k d)_i`.
 from __future__ import annotations
 
 import numpy as np
-import scipy.linalg
 
 from tdhf.radial.mesh import RadialGrid
 
@@ -43,8 +42,9 @@ def coulomb_kernels(grid: RadialGrid, k_max: int) -> np.ndarray:
     for k in range(k_max + 1):
         laplacian = grid.stiffness + np.diag(k * (k + 1) / r**2)
         # M_k is symmetric positive definite: Cholesky inverse is both fast and accurate.
-        factor = scipy.linalg.cho_factor(laplacian, lower=True)
-        inverse = scipy.linalg.cho_solve(factor, np.eye(grid.size))
+        lower = np.linalg.cholesky(laplacian)
+        lower_inverse = np.linalg.solve(lower, np.eye(grid.size))
+        inverse = lower_inverse.T @ lower_inverse
         kernel = (2 * k + 1) * inverse * outer_scale[:, None] * outer_scale[None, :]
         kernel += np.outer(r**k, r**k) / grid.r_max ** (2 * k + 1)
         kernels[k] = 0.5 * (kernel + kernel.T)

@@ -32,7 +32,6 @@ import logging
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.linalg
 
 from tdhf.angular import multipole_weight, response_exchange_factors
 from tdhf.errors import InputError
@@ -200,7 +199,7 @@ class ResponseSolver:
         for l_t in self.channel_groups:
             fock = one_electron_operator(self.grid, nuclear_charge, l_t) - exchange_operator(self.kernels, self.shells, l_t)
             fock[np.diag_indices(self.grid.size)] += hartree
-            values, vectors = scipy.linalg.eigh(fock)
+            values, vectors = np.linalg.eigh(fock)
             virtual = np.ones(values.size, dtype=bool)
             occupied = self.shells.orbitals[self.shells.l == l_t]
             if occupied.size:
