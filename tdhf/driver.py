@@ -299,7 +299,7 @@ def run_deck(deck: Deck, progress: Progress | None = None, map_tasks: TaskMap | 
         if deck.response is not None:
             report(f"response of {system.name}")
             response_fields, library_notes, driver_notes = _run_response(ground_state, deck.response, deck.tolerances,
-                                                                         deck.continuum_grid)
+                                                                         deck.continuum_grid, map_tasks)
             fields |= response_fields
             notes += library_notes
             own_notes += driver_notes
@@ -326,6 +326,7 @@ def run_deck(deck: Deck, progress: Progress | None = None, map_tasks: TaskMap | 
 def _run_response(
     ground_state: GroundState, section: ResponseSection, tolerances: ResponseTolerances,
     continuum_grid: ContinuumGridSettings,
+    map_tasks: TaskMap | None = None,
 ) -> tuple[dict[str, tuple], tuple[str, ...], tuple[str, ...]]:
     """Response rows by RunResult field, the notes of tdhf.response, and the driver's notes."""
     results = compute_response(
@@ -339,6 +340,7 @@ def _run_response(
         tolerances=tolerances,
         eigen_tolerance=tolerances.eigen_tolerance,
         continuum_grid=continuum_grid,
+        map_tasks=map_tasks,
     )
     fields = {name: tuple(getattr(results, name)) for name in RESPONSE_FIELDS}
     fields["rejected"] = tuple(results.rejected)

@@ -39,6 +39,7 @@ import numpy as np
 from tdhf.errors import FrequencyError, InputError
 from tdhf.ground_state import GroundState, solve_ground_state
 from tdhf.numerics.status import combine
+from tdhf.numerics.tasks import TaskMap, serial
 from tdhf.numerics.threads import single_blas_thread
 from tdhf.properties.polarizability import DipoleShielding, Polarizability, QuadrupoleShielding, VelocityForm
 from tdhf.properties.spectrum import (
@@ -156,6 +157,7 @@ def compute_response(
     tolerances: ResponseTolerances = ResponseTolerances(),
     eigen_tolerance: float = 1e-10,
     continuum_grid: ContinuumGridSettings = ContinuumGridSettings(),
+    map_tasks: TaskMap | None = None,
 ) -> ResponseResults:
     """Polarizabilities, shielding factors, sum rules and (if asked) excitations of a solved atom.
 
@@ -179,6 +181,9 @@ def compute_response(
         Residual of the RPA eigensolver.
     continuum_grid : ContinuumGridSettings
         The scaled grid of real frequencies above the ionization threshold.
+    map_tasks : callable, optional
+        Where the multipoles (independent tasks) run (:mod:`tdhf.numerics.tasks`); by default
+        here, one after the other.  The numbers are the same either way.
 
     Raises
     ------
@@ -198,9 +203,13 @@ def compute_response(
                        _check_frequencies("imaginary_frequencies", imaginary_frequencies),
                        bool(coupled), float(broadening), int(excitation_count), tolerances, float(eigen_tolerance),
                        continuum_grid)
-    collected = _Collected(boxes={ground_state.r_max: ground_state})
-    for L in multipoles:
-        _one_multipole(ground_state, int(L), request, collected)
+    tasks = [(ground_state, int(L), request) for L in multipoles]
+    parts = (map_tasks or serial)(_multipole_task, tasks) if len(tasks) > 1 else [_multipole_task(*tasks[0])]
+    collected = _Collected()
+    for part in parts:  # in multipole order, whichever finished first
+        for name in ("polarizabilities", "shielding", "quadrupole_shielding", "sum_rules", "excitations",
+                     "strength_distribution", "warnings", "rejected"):
+            getattr(collected, name).extend(getattr(part, name))
     return ResponseResults(
         polarizabilities=tuple(collected.polarizabilities),
         shielding=tuple(collected.shielding),
@@ -211,6 +220,15 @@ def compute_response(
         warnings=tuple(collected.warnings),
         rejected=tuple(collected.rejected),
     )
+
+
+@single_blas_thread
+def _multipole_task(ground_state: GroundState, L: int, request: _Request) -> _Collected:
+    """Everything of one multipole (an independent task: serially here, or elsewhere through a task map)."""
+    collected = _Collected(boxes={ground_state.r_max: ground_state})
+    _one_multipole(ground_state, L, request, collected)
+    collected.boxes = {}  # the enlarged ground states stay where they were solved
+    return collected
 
 
 def _solver(state: GroundState, L: int) -> ResponseSolver:
