@@ -172,7 +172,7 @@ def figures(data: Mapping[str, Any], multipole: int | None = None, frequency: fl
     """The pictures of a result file's JSON object ``data``, as (name, matplotlib Figure), drawn lazily.
 
     Always the radial densities; alpha(omega) on the real axis for each multipole with real
-    frequencies; alpha(i omega) for the systems of a dispersion table; the lines with the S(0)
+    frequencies; the photoionization cross sections (total, velocity form, uncoupled, partials); alpha(i omega) for the systems of a dispersion table; the lines with the S(0)
     split; the first-order functions at ``frequency`` (default: the first real frequency of the
     result, else 0) for ``multipole`` (default: the first of the response).
 
@@ -197,6 +197,10 @@ def figures(data: Mapping[str, Any], multipole: int | None = None, frequency: fl
         yield f"alpha_real_L{L}", plots.real_axis_figure(real_axis(response_state(L), L, data), caption)
     if data.get("polarizability_tables"):
         yield "alpha_imaginary", plots.imaginary_axis_figure(data["polarizability_tables"], caption)
+    if data.get("photoionization"):
+        thresholds = (data.get("continuum") or {}).get("thresholds") or ()
+        yield "photoionization", plots.cross_section_figure(data["photoionization"], thresholds,
+                                                            data.get("resonances") or (), caption)
     if data.get("excitations") or data.get("strength_distribution"):
         yield "spectrum", plots.spectrum_figure(data.get("excitations") or (), data.get("strength_distribution") or (),
                                                 caption)

@@ -69,3 +69,18 @@ def test_without_matplotlib_the_error_names_the_install_command(helium_data, mon
     monkeypatch.setitem(sys.modules, "matplotlib", None)
     with pytest.raises(InputError, match=r"install it with: pip install 'tdhf\[plot\]'"):
         next(figures(helium_data))
+
+
+def test_the_photoionization_picture_renders():
+    """sigma(omega) of a [photoionization] result: total, velocity form, uncoupled and partials, in Mb and eV."""
+    pytest.importorskip("matplotlib")
+    from tdhf.report.plots import figure_bytes
+
+    deck = '[atom]\nelement = "He"\n[photoionization]\nphoton_energies = [1.0, 1.5, 2.5]\nsum_rules = false\n'
+    data = json.loads(json.dumps(result_to_json(run_deck(parse_deck(deck)))))
+    pictures = dict(figures(data))
+    assert list(pictures) == ["densities", "photoionization"]
+    axes = pictures["photoionization"].axes[0]
+    assert axes.get_xlabel() == "photon energy (eV)" and axes.get_ylabel() == "photoionization cross section (Mb)"
+    assert figure_bytes(pictures["photoionization"], "png")[:4] == b"\x89PNG"
+    figure_bytes(pictures["densities"], "png")

@@ -20,7 +20,7 @@ if TYPE_CHECKING:  # annotations only: this module draws what the layers below c
     from tdhf.pictures import RadialPlot, RealAxisPlot
 
 __all__ = ["MODEL", "INSTALL_HINT", "require_matplotlib", "real_axis_figure", "imaginary_axis_figure",
-           "spectrum_figure", "radial_figure", "deviation_figure", "figure_bytes", "FORMATS"]
+           "spectrum_figure", "cross_section_figure", "radial_figure", "deviation_figure", "figure_bytes", "FORMATS"]
 
 #: What every caption says the numbers are.
 MODEL = "TDHF/RPA linear response of nonrelativistic Hartree-Fock (point nucleus, numerical radial grid)"
@@ -134,6 +134,45 @@ def spectrum_figure(excitations: Sequence[Mapping[str, Any]], distributions: Seq
         ax.set_title(f"L = {multipole} ({_NAMES.get(multipole, '')}) RPA lines", fontsize=9)
         ax.legend(fontsize=6, loc="best")
     _caption(figure, caption)
+    return figure
+
+
+def cross_section_figure(rows: Sequence[Mapping[str, Any]], thresholds: Sequence[Mapping[str, Any]],
+                         resonances: Sequence[Mapping[str, Any]], caption: str):
+    """sigma(omega) in Mb against the photon energy in eV: TDHF length and velocity forms, uncoupled,
+    the partial cross sections of each hole, the thresholds (dotted) and resonances (ticks)."""
+    from tdhf.constants import BOHR2_MEGABARN, HARTREE_EV
+
+    figure, axes = _figure(width=8.0, height=5.0)
+    ax = axes[0, 0]
+    rows = sorted(rows, key=lambda row: row["photon_energy"])
+    energies = [row["photon_energy"] * HARTREE_EV for row in rows]
+
+    def megabarn(key: str) -> list[float]:
+        return [row[key] * BOHR2_MEGABARN if row[key] is not None else math.nan for row in rows]
+
+    ax.plot(energies, megabarn("cross_section"), color="C0", lw=1.6, label="TDHF (RPA), length form")
+    ax.plot(energies, megabarn("cross_section_velocity"), color="C0", lw=0.8, ls="--", label="TDHF, velocity form")
+    ax.plot(energies, megabarn("cross_section_uncoupled"), color="0.5", lw=1.0, ls=":", label="uncoupled (V^N)")
+    holes = sorted({partial["subshell"] for row in rows for partial in row["partial"]})
+    for k, hole in enumerate(holes):
+        values = [next((p["cross_section"] * BOHR2_MEGABARN for p in row["partial"] if p["subshell"] == hole), math.nan)
+                  for row in rows]
+        ax.plot(energies, values, color=f"C{k + 1}", lw=0.9, label=f"partial, {hole} hole")
+    low, high = (min(energies), max(energies)) if energies else (0.0, 1.0)
+    for threshold in thresholds:
+        energy = threshold["energy"] * HARTREE_EV
+        if low <= energy <= high:
+            ax.axvline(energy, color="0.6", ls=":", lw=0.8)
+            ax.text(energy, 1.0, f" {threshold['subshell']}", transform=ax.get_xaxis_transform(), fontsize=7,
+                    va="top", color="0.4")
+    for resonance in resonances:
+        ax.axvline(resonance["energy"] * HARTREE_EV, ymax=0.05, color="C3", lw=1.0)
+    ax.set_xlabel("photon energy (eV)")
+    ax.set_ylabel("photoionization cross section (Mb)")
+    ax.set_ylim(bottom=0.0)
+    ax.legend(fontsize=7)
+    _caption(figure, caption + "; thresholds dotted (Koopmans), resonances as red ticks")
     return figure
 
 
