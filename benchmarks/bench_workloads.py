@@ -87,10 +87,14 @@ def _commands(folder: Path) -> dict[str, list[str]]:
     }
 
 
-def _run(command: list[str]) -> tuple[float, float, float]:
-    """Wall seconds, CPU seconds and peak resident memory (MB) of one child process (os.wait4: its own rusage)."""
+def _run(command: list[str], folder: Path) -> tuple[float, float, float]:
+    """Wall seconds, CPU seconds and peak resident memory (MB) of one child process (os.wait4: its own rusage).
+
+    The child runs in ``folder``, as a user runs tdhf from a working folder of their own (not in
+    this source tree, which would put it first on every import search).
+    """
     start = time.perf_counter()
-    process = subprocess.Popen(command, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
+    process = subprocess.Popen(command, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True, cwd=folder)
     _, status, usage = os.wait4(process.pid, 0)
     wall = time.perf_counter() - start
     code = os.waitstatus_to_exitcode(status)
@@ -112,7 +116,7 @@ def main(argv: list[str] | None = None) -> int:
         rows = {}
         for repeat in range(args.repeats):  # interleaved, so a busy spell hits every workload alike
             for name in names:
-                rows.setdefault(name, []).append(_run(commands[name]))
+                rows.setdefault(name, []).append(_run(commands[name], Path(folder)))
         reference = statistics.median(wall for wall, _, _ in rows["reference"])
         reference_cpu = statistics.median(cpu for _, cpu, _ in rows["reference"])
         print(f"{'workload':10s} {'median':>8s} {'best':>8s} {'cpu':>8s} {'peak MB':>8s} {'ratio':>7s} {'cpu ratio':>9s}  goal")

@@ -321,8 +321,13 @@ def _progress(console: "Console", live: bool) -> Iterator[Any]:
     if not live:
         yield lambda stage: logger.info("%s ...", stage)
         return
-    with console.status("starting ...") as status:
-        yield lambda stage: status.update(f"{stage} ...")
+    from rich.live import Live
+    from rich.text import Text
+
+    # Redrawn at each stage, by this thread: a refresh thread would make the process
+    # multi-threaded, and its workers would then have to spawn (tdhf.execution.start_method).
+    with Live(Text("starting ..."), console=console, transient=True, auto_refresh=False) as status:
+        yield lambda stage: status.update(Text(f"{stage} ..."), refresh=True)
 
 
 def _silence(stream: TextIO) -> None:
@@ -454,10 +459,10 @@ def _progress_bar(console: "Console", live: bool, total: int) -> Iterator[tuple[
 
     columns = (TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),
                TextColumn("left"), TimeRemainingColumn())
-    with Progress(*columns, console=console, transient=True) as bar:
+    with Progress(*columns, console=console, transient=True, auto_refresh=False) as bar:  # no thread: see _progress
         task = bar.add_task("starting", total=total)
-        yield (lambda stage: bar.update(task, description=stage)), \
-            (lambda done, total: bar.update(task, completed=done, total=total))
+        yield (lambda stage: bar.update(task, description=stage, refresh=True)), \
+            (lambda done, total: bar.update(task, completed=done, total=total, refresh=True))
 
 
 def _write_outputs(result: Any, targets: dict[str, "OutputTarget"]) -> list[str]:
@@ -492,7 +497,6 @@ def _execute(args: argparse.Namespace, stdout: TextIO, err_console: "Console", s
 
     from tdhf.certify import certify
     from tdhf.driver import run_deck
-    from tdhf.report.terminal import print_report
 
     codes = []
     live = err_console.is_terminal and not (args.quiet or args.verbose)
@@ -509,6 +513,8 @@ def _execute(args: argparse.Namespace, stdout: TextIO, err_console: "Console", s
             logger.warning("%s", note)
     failed = _write_outputs(result, targets)
     if not args.quiet or failed:
+        from tdhf.report.terminal import print_report
+
         _to_stdout(stdout, lambda console: print_report(console, result))
         if args.units != "atomic":
             _to_stdout(stdout, lambda console: print_units_view(console, result, args.units))

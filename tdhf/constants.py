@@ -13,7 +13,8 @@ typed in.
 
 from __future__ import annotations
 
-from scipy.constants import physical_constants
+import math
+import sys
 
 __all__ = [
     "HARTREE_EV",
@@ -39,33 +40,49 @@ CODATA_KEYS = {
     "hartree_hertz": "hartree-hertz relationship",
 }
 
-#: One hartree in electronvolt.
-HARTREE_EV: float = physical_constants[CODATA_KEYS["hartree_ev"]][0]
+# The factors are read when first used (PEP 562 module __getattr__): importing scipy.constants
+# costs ~0.1 s of start-up (its array-API layer), which a run that prints nothing in SI or eV
+# units need not pay.  Their meanings:
+#   HARTREE_EV               one hartree in electronvolt
+#   HARTREE_J                one hartree in joule
+#   BOHR_M                   one bohr in metre
+#   HARTREE_INVERSE_METER    the wavenumber of one hartree, m^-1 (wavelength = 1 / (E x this))
+#   HARTREE_HERTZ            the frequency E/h of one hartree, Hz
+#   BOHR2_MEGABARN           one bohr^2 in megabarn (1 Mb = 1e-22 m^2), cross sections in tables
+#   BOHR_ANGSTROM            one bohr in angstrom
+#   POLARIZABILITY_SI        the atomic unit of dipole polarizability e^2 a0^2 / E_h in C m^2 / V
+#   POLARIZABILITY_ANGSTROM3 bohr^3 in angstrom^3: the "polarizability volume" alpha / (4 pi eps0),
+#                            which is a0^3 for one atomic unit
 
-#: One hartree in joule.
-HARTREE_J: float = physical_constants[CODATA_KEYS["hartree_j"]][0]
 
-#: One bohr in metre.
-BOHR_M: float = physical_constants[CODATA_KEYS["bohr_m"]][0]
+def _factors() -> dict[str, float]:
+    from scipy.constants import physical_constants
 
-#: The wavenumber of one hartree, m^-1 (a photon of energy E has wavelength 1 / (E x this)).
-HARTREE_INVERSE_METER: float = physical_constants[CODATA_KEYS["hartree_inverse_meter"]][0]
+    def codata(key: str) -> float:
+        return physical_constants[CODATA_KEYS[key]][0]
 
-#: The frequency E/h of one hartree, Hz.
-HARTREE_HERTZ: float = physical_constants[CODATA_KEYS["hartree_hertz"]][0]
+    bohr_angstrom = codata("bohr_m") * 1e10
+    return {
+        "HARTREE_EV": codata("hartree_ev"),
+        "HARTREE_J": codata("hartree_j"),
+        "BOHR_M": codata("bohr_m"),
+        "HARTREE_INVERSE_METER": codata("hartree_inverse_meter"),
+        "HARTREE_HERTZ": codata("hartree_hertz"),
+        "BOHR2_MEGABARN": codata("bohr_m") ** 2 / 1e-22,
+        "BOHR_ANGSTROM": bohr_angstrom,
+        "POLARIZABILITY_SI": codata("polarizability_si"),
+        "POLARIZABILITY_ANGSTROM3": math.pow(bohr_angstrom, 3),
+    }
 
-#: One bohr^2 in megabarn (1 Mb = 1e-22 m^2): cross sections in the terminal and tables.
-BOHR2_MEGABARN: float = physical_constants[CODATA_KEYS["bohr_m"]][0] ** 2 / 1e-22
 
-#: One bohr in angstrom.
-BOHR_ANGSTROM: float = physical_constants[CODATA_KEYS["bohr_m"]][0] * 1e10
+def __getattr__(name: str) -> float:
+    if name in _FACTOR_NAMES:
+        globals().update(_factors())  # later reads find the module attribute itself
+        return globals()[name]
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
-#: The atomic unit of dipole polarizability, e^2 a0^2 / E_h, in C m^2 / V (= C^2 m^2 / J).
-POLARIZABILITY_SI: float = physical_constants[CODATA_KEYS["polarizability_si"]][0]
 
-#: The atomic unit of dipole polarizability as a volume, bohr^3 in angstrom^3 (the "polarizability
-#: volume" alpha / (4 pi epsilon_0), which is a0^3 for one atomic unit).
-POLARIZABILITY_ANGSTROM3: float = BOHR_ANGSTROM**3
+_FACTOR_NAMES = frozenset(__all__) - {"hartree_to_ev", "CODATA_KEYS"}
 
 
 def hartree_to_ev(energy_hartree: float) -> float:
@@ -74,4 +91,4 @@ def hartree_to_ev(energy_hartree: float) -> float:
     >>> round(hartree_to_ev(-0.5), 4)
     -13.6057
     """
-    return energy_hartree * HARTREE_EV
+    return energy_hartree * sys.modules[__name__].HARTREE_EV

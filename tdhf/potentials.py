@@ -73,7 +73,7 @@ def exchange_operator(kernels: np.ndarray, shells: OccupiedShells, l: int) -> np
     exchange = np.zeros((size, size))
     if not shells.interacting:
         return exchange
-    l_values = np.unique(shells.l)
+    l_values = sorted(set(shells.l.tolist()))  # (np.unique would import numpy.ma: 8 ms of start-up)
     for k in range(kernels.shape[0]):
         weighted = np.zeros((size, size))
         touched = False

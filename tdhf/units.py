@@ -37,8 +37,7 @@ import math
 import re
 from dataclasses import dataclass
 
-from tdhf.constants import BOHR_ANGSTROM, BOHR_M, HARTREE_EV, HARTREE_HERTZ, HARTREE_INVERSE_METER, HARTREE_J, \
-    POLARIZABILITY_SI
+from tdhf import constants
 from tdhf.errors import InputError
 
 __all__ = ["Unit", "UNIT_SYSTEMS", "FREQUENCY_UNITS", "parse_frequency", "display_unit", "frequency_unit",
@@ -53,9 +52,11 @@ _POLARIZABILITIES = ("polarizability", "polarizability_velocity_form", "polariza
 _DISPERSION = ("C6", "C8", "C10")
 
 
-def _times(factor: float):
-    """number -> number x factor (the hartree in one unit)."""
-    return lambda number: number * factor
+def _times(factor: float, per: str | None = None):
+    """number -> number x factor [/ the CODATA factor ``per`` of :mod:`tdhf.constants`, read when used]."""
+    if per is None:
+        return lambda number: number * factor
+    return lambda number: number * (factor / getattr(constants, per))
 
 
 #: Frequency units accepted on input: the name and the map from the number given to hartree.
@@ -63,12 +64,12 @@ def _times(factor: float):
 FREQUENCY_UNITS = {
     "hartree": _times(1.0),
     "Eh": _times(1.0),
-    "eV": _times(1.0 / HARTREE_EV),
-    "meV": _times(1e-3 / HARTREE_EV),
-    "cm^-1": _times(100.0 / HARTREE_INVERSE_METER),
-    "nm": lambda wavelength: 1.0 / (wavelength * 1e-9 * HARTREE_INVERSE_METER),
-    "THz": _times(1e12 / HARTREE_HERTZ),
-    "10^-18 J": _times(1e-18 / HARTREE_J),
+    "eV": _times(1.0, "HARTREE_EV"),
+    "meV": _times(1e-3, "HARTREE_EV"),
+    "cm^-1": _times(100.0, "HARTREE_INVERSE_METER"),
+    "nm": lambda wavelength: 1.0 / (wavelength * 1e-9 * constants.HARTREE_INVERSE_METER),
+    "THz": _times(1e12, "HARTREE_HERTZ"),
+    "10^-18 J": _times(1e-18, "HARTREE_J"),
 }
 _ALIASES = {"cm-1": "cm^-1", "1/cm": "cm^-1", "a.u.": "hartree", "au": "hartree", "aJ": "10^-18 J",
             "Ha": "hartree"}
@@ -163,12 +164,14 @@ def display_unit(property: str, atomic_unit: str, system: str) -> Unit:
         return Unit(atomic_unit, 1.0)
     if property in _POLARIZABILITIES and energy == 0:
         if system == "spectroscopic":  # the polarizability volume alpha / (4 pi epsilon_0)
-            return Unit(_label(("angstrom", length)), BOHR_ANGSTROM**length)
-        return _scaled(_label(("C", 1), ("m", length - 1), ("V", -1)), POLARIZABILITY_SI * BOHR_M ** (length - 3))
+            return Unit(_label(("angstrom", length)), constants.BOHR_ANGSTROM**length)
+        return _scaled(_label(("C", 1), ("m", length - 1), ("V", -1)),
+                       constants.POLARIZABILITY_SI * constants.BOHR_M ** (length - 3))
     if system == "spectroscopic":
-        name, per_hartree = ("meV", 1e3 * HARTREE_EV) if property in _DISPERSION else ("eV", HARTREE_EV)
-        return Unit(_label((name, energy), ("angstrom", length)), per_hartree**energy * BOHR_ANGSTROM**length)
-    return _scaled(_label(("J", energy), ("m", length)), HARTREE_J**energy * BOHR_M**length)
+        name, per_hartree = ("meV", 1e3 * constants.HARTREE_EV) if property in _DISPERSION \
+            else ("eV", constants.HARTREE_EV)
+        return Unit(_label((name, energy), ("angstrom", length)), per_hartree**energy * constants.BOHR_ANGSTROM**length)
+    return _scaled(_label(("J", energy), ("m", length)), constants.HARTREE_J**energy * constants.BOHR_M**length)
 
 
 def frequency_unit(system: str) -> Unit:

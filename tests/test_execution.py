@@ -5,13 +5,14 @@ Common practice, no source: the same computation in another process must give th
 """
 
 import sys
+import threading
 
 import pytest
 
 from tdhf.deck import parse_deck
 from tdhf.driver import run_deck
 from tdhf.errors import InputError
-from tdhf.execution import DaskCluster, ProcessPool, default_workers, serial, task_map
+from tdhf.execution import DaskCluster, ProcessPool, default_workers, serial, start_method, task_map
 from tdhf.properties.dispersion import dispersion_table
 
 PAIR_DECK = '[atom]\nelement = "He"\n[dispersion]\nsystems = ["Be"]\nquadrature_points = 16\n'
@@ -29,6 +30,29 @@ def test_serial_and_pool_keep_the_task_order():
     with task_map(workers=1) as run:
         assert run is serial
     assert default_workers() >= 1
+
+
+def test_workers_fork_only_from_a_single_threaded_process():
+    """Common practice, no source: a fork copies only the forking thread, so a lock held by another
+    thread would stay held in the child for ever; with a second thread running the pool spawns."""
+    assert start_method() == "fork"  # pytest runs the tests in one thread
+    release = threading.Event()
+    other = threading.Thread(target=release.wait)
+    other.start()
+    try:
+        assert start_method() == "spawn"
+        with ProcessPool(2) as pool:  # and a spawned pool gives the same answers
+            assert list(pool(_square, [(3,), (4,)])) == [9, 16]
+    finally:
+        release.set()
+        other.join()
+
+
+def test_a_pool_with_no_tasks_starts_no_process():
+    with ProcessPool(2) as pool:
+        assert pool._pool is None
+    with pytest.raises(RuntimeError, match="outside its with block"):
+        list(pool(_square, [(1,)]))
 
 
 def test_bad_worker_counts_and_a_missing_dask_are_one_line_errors(monkeypatch):

@@ -69,6 +69,20 @@ def test_the_command_line_imports_no_numerics_until_a_command_runs():
     assert loaded.strip() == "[]"
 
 
+def test_the_codata_factors_load_when_first_used():
+    """Common practice, no source: importing scipy.constants costs ~0.1 s of start-up, paid only by
+    a run that converts a unit; the factors then are scipy's CODATA values."""
+    import subprocess
+    import sys
+
+    probe = ("import sys, tdhf.units, tdhf.constants as c; before = 'scipy.constants' in sys.modules;"
+             " one = tdhf.units.parse_frequency('27.211386245988 eV', 'f');"
+             " from scipy.constants import physical_constants as p;"
+             " print(before, round(one, 12), c.HARTREE_EV == p['Hartree energy in eV'][0])")
+    loaded = subprocess.run([sys.executable, "-c", probe], capture_output=True, text=True, check=True).stdout
+    assert loaded.split() == ["False", "1.0", "True"]
+
+
 def test_the_command_lines_copies_of_the_choices_match_the_library():
     """Common practice, no source: tdhf.commands repeats two lists so that --help imports no numerics."""
     from tdhf import commands

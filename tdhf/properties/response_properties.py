@@ -449,10 +449,12 @@ def _continuum_rows(state: GroundState, L: int, name: str, request: _Request, ou
     Solved on an exterior-complex-scaled grid (:mod:`tdhf.properties.photoionization`), coupled
     and uncoupled; the imaginary parts are the absorption (for L = 1, sigma = 4 pi omega Im alpha / c).
     """
-    from tdhf.properties.photoionization import continuum_polarizabilities, frequencies_that_fit  # when needed
-
     threshold = -float(state.orbital_energies.max())
     indices = [i for i, omega in enumerate(request.frequencies) if omega > threshold * (1.0 + RESONANCE_MARGIN)]
+    if not indices:
+        return
+    from tdhf.properties.photoionization import continuum_polarizabilities, frequencies_that_fit  # when needed
+
     above = frequencies_that_fit(state, "response.frequencies", [request.frequencies[i] for i in indices], request.continuum_grid,
                      out.rejected, indices)
     if not above:

@@ -34,7 +34,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.linalg
 
 from tdhf.numerics.davidson import rpa_davidson
 from tdhf.numerics.status import EXACT, SolveStatus
@@ -300,9 +299,9 @@ def rpa_eigen_excitations(solver: ResponseSolver, cutoff: float | None = None, c
         b_matrix = scale[:, None] * b_matrix / scale[None, :]
         a_matrix = 0.5 * (a_matrix + a_matrix.T)
         b_matrix = 0.5 * (b_matrix + b_matrix.T)
-    difference_values, difference_vectors = scipy.linalg.eigh(a_matrix - b_matrix)
+    difference_values, difference_vectors = np.linalg.eigh(a_matrix - b_matrix)
     root = (difference_vectors * np.sqrt(np.clip(difference_values, 0.0, None))) @ difference_vectors.T
-    squared, vectors = scipy.linalg.eigh(root @ (a_matrix + b_matrix) @ root)
+    squared, vectors = np.linalg.eigh(root @ (a_matrix + b_matrix) @ root)
     energies = np.sqrt(np.clip(squared, 0.0, None))
     strengths = 2.0 * (vectors.T @ (root @ b)) ** 2
     return energies, strengths

@@ -24,7 +24,7 @@ from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
-from tdhf.constants import BOHR2_MEGABARN, HARTREE_EV
+from tdhf import constants
 
 if TYPE_CHECKING:  # only for annotations: the report layer reads results, it does not run them
     from tdhf.driver import RunResult
@@ -111,7 +111,7 @@ def _in_ev(name: str) -> Callable[[Any], Any]:
 
     def convert(row: Any) -> Any:
         value = get(row)
-        return None if value is None else value * HARTREE_EV
+        return None if value is None else value * constants.HARTREE_EV
 
     return convert
 
@@ -194,13 +194,13 @@ ROW_TABLES: dict[str, tuple[str, tuple[Column, ...]]] = {
     "photoionization": ("Photoionization cross sections (TDHF/RPA; 1 Mb = 1e-22 m^2)", (
         Column("photon energy\n(hartree)", _field("photon_energy"), ".6f"),
         Column("photon energy\n(eV)", _in_ev("photon_energy"), ".4f"),
-        Column("sigma, length\n(Mb)", _field("cross_section"), key="cross_section", scale=BOHR2_MEGABARN),
+        Column("sigma, length\n(Mb)", _field("cross_section"), key="cross_section", scale=constants.BOHR2_MEGABARN),
         Column("sigma, velocity\n(Mb)", _field("cross_section_velocity"), key="cross_section_velocity",
-               scale=BOHR2_MEGABARN),
+               scale=constants.BOHR2_MEGABARN),
         Column("sigma, uncoupled\n(Mb)", _field("cross_section_uncoupled"), key="cross_section_uncoupled",
-               scale=BOHR2_MEGABARN),
+               scale=constants.BOHR2_MEGABARN),
         Column("partial by hole\n(Mb)", lambda row: "  ".join(
-            f"{_field('subshell')(p)} {_field('cross_section')(p) * BOHR2_MEGABARN:.5g}" for p in _field("partial")(row))),
+            f"{_field('subshell')(p)} {_field('cross_section')(p) * constants.BOHR2_MEGABARN:.5g}" for p in _field("partial")(row))),
         Column("converged", _flag("converged")),
     )),
     "resonances": ("Autoionizing resonances", (
@@ -310,7 +310,7 @@ def orbital_table(state: "GroundState", uncertainties: Mapping[str, float] | Non
             orbital.label,
             str(orbital.occupation),
             energy,
-            _cell(orbital.energy * HARTREE_EV, ".6f"),
+            _cell(orbital.energy * constants.HARTREE_EV, ".6f"),
             _cell(orbital.mean_r, ".8f"),
             _cell(orbital.mean_r_squared, ".8f"),
         )
