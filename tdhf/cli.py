@@ -121,7 +121,7 @@ def build_parser() -> argparse.ArgumentParser:
 
     atom = commands.add_parser("atom", parents=[common], help="one atom or ion without a deck",
                                description="Ground state (and optionally response) of one system.")
-    atom.add_argument("element", metavar="ELEMENT", help='element symbol or atomic number, e.g. "Ne" or 10')
+    atom.add_argument("element", metavar="ELEMENT", help='element symbol or atomic number, e.g. "Ne" or 10, or an ion such as "Cl-" or "Mg2+"')
     atom.add_argument("--charge", type=int, help="net charge (default 0)")
     atom.add_argument("--configuration", metavar="CONFIG", help='closed-shell configuration, e.g. "1s2 2s2"')
     atom.add_argument("--tight", action="store_true", help="use the tight grid preset")
@@ -188,6 +188,11 @@ def _deck_from_arguments(args: argparse.Namespace) -> "Deck":
     atom: dict[str, Any] = {"element": args.element}
     if args.charge is not None:
         atom["charge"] = args.charge
+    if args.element.strip().endswith(("+", "-")):  # an ion by its name, as in dispersion partners
+        atom["element"], charge = parse_system_name(args.element, "ELEMENT")
+        if atom.setdefault("charge", charge) != charge:
+            raise InputError(f"--charge: {args.charge} disagrees with the charge {charge:+d} of {args.element!r};"
+                             " give the charge once")
     if args.configuration is not None:
         atom["configuration"] = args.configuration
     data = {"atom": atom}

@@ -246,13 +246,21 @@ def test_cli_bad_deck_exits_2_with_one_line(tmp_path):
     ["atom", "He", "--multipoles", "4", "--json", "out.json"],
     ["run", "absent.toml", "--json", "out.json"],
     ["atom", "He", "--json", "no/such/dir/out.json"],
-], ids=["unknown-element", "open-shell", "multipole-4", "missing-deck", "bad-json-dir"])
+    ["atom", "Na+", "--charge", "2", "--json", "out.json"],
+], ids=["unknown-element", "open-shell", "multipole-4", "missing-deck", "bad-json-dir", "two-charges"])
 def test_cli_input_errors(tmp_path, args):
     run = tdhf(*args, cwd=tmp_path)
     assert run.returncode == 2
     (line,) = run.stderr.splitlines()
     assert line.startswith("tdhf: error: ") and "Traceback" not in run.stderr
     assert list(tmp_path.iterdir()) == []
+
+
+def test_cli_atom_takes_an_ion_by_its_name(tmp_path):
+    """Common practice, no source: "Na+" is Na with charge +1, as in the dispersion partners."""
+    assert tdhf("atom", "Na+", "-q", "--json", "ion.json", cwd=tmp_path).returncode == 0
+    atom = json.loads((tmp_path / "ion.json").read_text())["atom"]
+    assert (atom["Z"], atom["charge"]) == (11, 1)
 
 
 def test_cli_unconverged_exits_3_and_keeps_the_json(tmp_path):
