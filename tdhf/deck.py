@@ -172,7 +172,7 @@ class DispersionSection:
     unordered pair among ``[atom]`` and these systems (like pairs included) is computed.
     ``pairs``: exactly these pairs, each written "A:B" (e.g. "He:Ne"); [atom] need not be in one.
     ``quadrature_points``: the base rule size n of the imaginary-frequency quadrature (the
-    reported values use n + n//2 nodes, :mod:`tdhf.properties.dispersion`).
+    reported values use its Gauss–Kronrod extension of 2n + 1 nodes, :mod:`tdhf.properties.dispersion`).
     """
 
     partners: tuple[str, ...] = ()

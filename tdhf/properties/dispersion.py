@@ -58,15 +58,16 @@ fixed scale :data:`FREQUENCY_SCALE` :math:`\omega_0 = 0.5` hartree.  Since
 :math:`(1-t)^2` at t = 1; an excitation energy Δ puts a pole of the integrand on the unit circle
 of the t plane, close to t = 1 when Δ >> ω0, which slows the convergence for deep core shells
 but with weights that fall like Δ^-3.  Each result uses two rules: the *base* rule of n = ``quadrature_points`` nodes and the
-*companion* rule of n + n//2 nodes.  The reported coefficients are those of the companion (more
-accurate) rule and the reported error is :math:`\max(|Q_n - Q_{n + n/2}|,\ `
-:data:`ERROR_FLOOR` :math:`\cdot |Q_{n+n/2}|)`: an estimate of the base rule's error, so an
-overestimate for the reported value.  The floor covers the irregular, non-monotone convergence
+*companion* rule, its Gauss–Kronrod extension of 2n + 1 nodes (:mod:`tdhf.numerics.quadrature`;
+exact to degree 3n + 1 in t), which contains the base nodes.  The reported coefficients are those
+of the companion (more accurate) rule and the reported error is :math:`\max(|Q_n - K_{2n+1}|,\ `
+:data:`ERROR_FLOOR` :math:`\cdot |K_{2n+1}|)`: an estimate of the base rule's error, so an
+overestimate for the reported value; the base costs no solves of its own.  The floor covers the irregular, non-monotone convergence
 seen at 1e-10..1e-9 for atoms with deep d and p shells (He–Cd C6: errors 1.1e-9 at n = 24 and
 8e-10 at n = 36, against n = 96) and the response solver's own noise (alpha reproducible to
 ~1.5e-10 at its Krylov tolerance).  The error is that of the frequency quadrature only; the radial grid's error
 is separate (compare a run with ``GridSettings.tight()``).  A single ω0 for all pairs lets each
-atom's :math:`\alpha_l(i\omega)` be solved once, on the union of both rules' nodes, and reused for
+atom's :math:`\alpha_l(i\omega)` be solved once, on the companion's nodes, and reused for
 every pair; pairs then cost a few dot products.  The (system, multipole) responses are
 independent: ``map_tasks`` (:mod:`tdhf.execution`) may run them elsewhere (a process pool, a
 cluster), with bit-identical results.
@@ -104,6 +105,7 @@ from tdhf.ground_state import GroundState
 from tdhf.numerics.tasks import TaskMap
 from tdhf.numerics.threads import single_blas_thread
 from tdhf.numerics.extrapolation import lagrange_extrapolate
+from tdhf.numerics.quadrature import gauss_kronrod_legendre
 from tdhf.response.solver import FirstOrderOrbitals, ResponseSolver, ResponseTolerances
 
 __all__ = [
@@ -162,7 +164,7 @@ class DispersionCoefficients:
     pair : tuple of str
         System names (A, B), e.g. ("Ne", "He"); the coefficients are symmetric in A and B.
     C6, C8, C10 : float
-        Values of the companion quadrature rule (n + n//2 nodes); NaN if a response failed.
+        Values of the companion (Gauss–Kronrod) quadrature rule (2n + 1 nodes); NaN if a response failed.
     C6_error, C8_error, C10_error : float
         Quadrature error estimates (module docstring), same units; NaN with the value.
     converged : bool
@@ -191,7 +193,7 @@ class ImaginaryFrequencyTable:
     system : str
         The system's name, e.g. "Na+".
     frequencies : tuple of float, shape (m,)
-        Quadrature nodes omega_k in hartree, ascending (m = n + n//2).
+        Quadrature nodes omega_k in hartree, ascending (m = 2n + 1).
     weights : tuple of float, shape (m,)
         Weights w_k in hartree: :math:`\int_0^\infty f\,d\omega \approx \sum_k w_k f(\omega_k)`.
     dipole, quadrupole, octupole : tuple of float, shape (m,)
@@ -263,15 +265,17 @@ def imaginary_frequency_rule(points: int, scale: float = FREQUENCY_SCALE) -> tup
     """
     if points < 1 or scale <= 0.0:
         raise InputError(f"imaginary_frequency_rule: need points >= 1 and scale > 0, got {points}, {scale}")
-    t, w = np.polynomial.legendre.leggauss(points)
-    nodes = scale * (1.0 + t) / (1.0 - t)
-    weights = w * 2.0 * scale / (1.0 - t) ** 2
-    return nodes, weights
+    return _mapped(*np.polynomial.legendre.leggauss(points), scale)
+
+
+def _mapped(t: np.ndarray, w: np.ndarray, scale: float) -> tuple[np.ndarray, np.ndarray]:
+    """Nodes and weights of a rule in t on (-1, 1) carried to omega = s (1 + t)/(1 - t)."""
+    return scale * (1.0 + t) / (1.0 - t), w * 2.0 * scale / (1.0 - t) ** 2
 
 
 def companion_points(points: int) -> int:
-    """Size of the companion rule that gives the reported value and, with the base, the error."""
-    return points + points // 2
+    """Size of the companion (Gauss–Kronrod) rule that gives the reported value and, with the base, the error."""
+    return 2 * points + 1
 
 
 def casimir_polder_coefficients(
@@ -388,7 +392,7 @@ def _predicted(history: list[tuple[float, FirstOrderOrbitals]], nu: float) -> Fi
 
 @dataclass(frozen=True)
 class _Rules:
-    """Base and companion rules and the union of their nodes (where alpha is solved)."""
+    """Base and companion rules and the companion's nodes (where alpha is solved; they hold the base's)."""
 
     base_points: int
     nodes: np.ndarray
@@ -397,18 +401,20 @@ class _Rules:
 
     @classmethod
     def make(cls, points: int) -> "_Rules":
+        # The companion is the Kronrod extension of the base Gauss rule: its 2n + 1 nodes hold the
+        # base's n, so the error estimate costs no solves of its own.
+        t, kronrod_weights, gauss = gauss_kronrod_legendre(points)
+        nodes, weights = _mapped(t, kronrod_weights, FREQUENCY_SCALE)
         base_nodes, base_weights = imaginary_frequency_rule(points)
-        companion_nodes, companion_weights = imaginary_frequency_rule(companion_points(points))
-        # Rules of odd size share omega = omega_0 (t = 0 exactly); solve it once.
-        nodes = np.unique(np.concatenate([base_nodes, companion_nodes]))
-        return cls(points, nodes, (np.searchsorted(nodes, base_nodes), base_weights),
-                   (np.searchsorted(nodes, companion_nodes), companion_weights))
+        if not np.array_equal(nodes[gauss], base_nodes):  # the same floats by construction
+            raise RuntimeError("the Gauss nodes of the Kronrod rule moved")
+        return cls(points, nodes, (gauss, base_weights), (np.arange(nodes.size), weights))
 
 
 @dataclass(frozen=True)
 class _SystemResponse:
     name: str
-    alpha: np.ndarray  # shape (3, union nodes + 1): alpha_L(i w) then alpha_L(0); NaN rows for failed multipoles
+    alpha: np.ndarray  # shape (3, companion nodes + 1): alpha_L(i w) then alpha_L(0); NaN rows for failed multipoles
 
 
 def _check_options(points: int) -> None:
@@ -433,7 +439,7 @@ def _solve_systems(
     states: Sequence[GroundState], rules: _Rules, map_tasks: TaskMap | None, advance: Callable[[int], None],
     tolerances: ResponseTolerances = ResponseTolerances(),
 ) -> tuple[list[_SystemResponse], list[str]]:
-    """alpha_L on the union of nodes for each state; failures become NaN rows and notes.
+    """alpha_L on the companion's nodes for each state; failures become NaN rows and notes.
 
     With ``map_tasks`` the (system, multipole) tasks go to it, the costliest first; each task is
     the same computation as in the serial loop, so the numbers are bit-identical (one BLAS thread
@@ -572,7 +578,7 @@ def compute_dispersion(
     partners : tuple of GroundState
         B of each pair, in order; passing ``ground_state`` itself gives the like pair.
     quadrature_points : int
-        Base rule size n in QUADRATURE_RANGE; the reported values use n + n//2 nodes.
+        Base rule size n in QUADRATURE_RANGE; the reported values use its 2n + 1-node Kronrod extension.
     progress : callable, optional
         ``progress(done, total)`` counted in frequency solves: after each solve (serial) or
         each finished (system, multipole) block (with ``map_tasks``).
