@@ -28,9 +28,7 @@ from tdhf.numerics.tasks import TaskMap
 from tdhf.properties.dispersion import (
     DispersionCoefficients,
     ImaginaryFrequencyTable,
-    compute_dispersion,
-    dispersion_pairs,
-    dispersion_table,
+    start_dispersion,
 )
 from tdhf.properties.polarizability import DipoleShielding, Polarizability, QuadrupoleShielding
 from tdhf.properties.photoionization_rows import (
@@ -296,6 +294,10 @@ def run_deck(deck: Deck, progress: Progress | None = None, map_tasks: TaskMap | 
         own_notes += [f"{name}: skipped; the ground state of {system.name} did not converge"
                       for name in ("response", "dispersion") if getattr(deck, name) is not None]
     else:
+        # With a task map the dispersion responses are handed to it first and run while the
+        # response section is solved (on two workers a Rn deck's workers no longer idle between them).
+        finish_dispersion = (_start_dispersion(ground_state, deck.dispersion, deck, report, map_tasks)
+                             if deck.dispersion is not None and map_tasks is not None else None)
         if deck.response is not None:
             report(f"response of {system.name}")
             response_fields, library_notes, driver_notes = _run_response(ground_state, deck.response, deck.tolerances,
@@ -304,7 +306,9 @@ def run_deck(deck: Deck, progress: Progress | None = None, map_tasks: TaskMap | 
             notes += library_notes
             own_notes += driver_notes
         if deck.dispersion is not None:
-            dispersion_fields, library_notes = _run_dispersion(ground_state, deck.dispersion, deck, report, map_tasks)
+            if finish_dispersion is None:
+                finish_dispersion = _start_dispersion(ground_state, deck.dispersion, deck, report, map_tasks)
+            dispersion_fields, library_notes = finish_dispersion()
             fields |= dispersion_fields
             notes += library_notes
         if deck.photoionization is not None:
@@ -347,17 +351,19 @@ def _run_response(
     return fields, tuple(results.warnings), ()
 
 
-def _run_dispersion(
+def _start_dispersion(
     ground_state: GroundState,
     section: DispersionSection,
     deck: Deck,
     report: Progress,
     map_tasks: TaskMap | None = None,
-) -> tuple[dict[str, tuple], tuple[str, ...]]:
-    """Dispersion rows, alpha(i w) tables and partner ground states by RunResult field, and the notes.
+) -> Callable[[], tuple[dict[str, tuple], tuple[str, ...]]]:
+    """Start the dispersion section; the function returned gives its RunResult fields and notes.
 
-    Each other system is solved with the deck's grid and SCF settings (the atom's own ground state
-    is reused).  A system whose ground state or response fails only marks its own pairs.
+    The fields are the dispersion rows, the alpha(i w) tables and the partner ground states.  Each
+    other system is solved here, now, with the deck's grid and SCF settings (the atom's own ground
+    state is reused); its responses go to ``map_tasks`` (:func:`start_dispersion`).  A system whose
+    ground state or response fails only marks its own pairs.
     """
     names = section.names
     others = []
@@ -374,20 +380,28 @@ def _run_dispersion(
         report(f"dispersion: imaginary-frequency responses {done}/{total}")
 
     if section.partners:
-        results = compute_dispersion(ground_state, tuple(others), quadrature_points=section.quadrature_points,
-                                     tolerances=deck.tolerances, map_tasks=map_tasks)
+        states = [ground_state, *others]
+        pairs = [(0, k) for k in range(1, len(states))]
+        counter = None
     elif section.pairs:
+        states = others
         index = {name: k for k, name in enumerate(names)}
         pairs = [tuple(index[name] for name in pair.split(":")) for pair in section.pairs]
-        results = dispersion_pairs(others, pairs, quadrature_points=section.quadrature_points, progress=count,
-                                   tolerances=deck.tolerances, map_tasks=map_tasks)
+        counter = count
     else:
-        series = [ground_state] + [state for state in others if state is not ground_state]
-        results = dispersion_table(series, quadrature_points=section.quadrature_points, progress=count,
-                                   tolerances=deck.tolerances, map_tasks=map_tasks)
-    fields = {
-        "dispersion": tuple(results.coefficients),
-        "polarizability_tables": tuple(results.polarizability_tables),
-        "partner_ground_states": tuple(others),
-    }
-    return fields, notes + tuple(results.warnings)
+        states = [ground_state] + [state for state in others if state is not ground_state]
+        pairs = [(i, j) for i in range(len(states)) for j in range(i, len(states))]
+        counter = count
+    results = start_dispersion(states, pairs, quadrature_points=section.quadrature_points, progress=counter,
+                               tolerances=deck.tolerances, map_tasks=map_tasks)
+
+    def finish() -> tuple[dict[str, tuple], tuple[str, ...]]:
+        done = results()
+        fields = {
+            "dispersion": tuple(done.coefficients),
+            "polarizability_tables": tuple(done.polarizability_tables),
+            "partner_ground_states": tuple(others),
+        }
+        return fields, notes + tuple(done.warnings)
+
+    return finish

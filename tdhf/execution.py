@@ -68,8 +68,9 @@ def start_method() -> str:
 class ProcessPool:
     """A pool of ``workers`` processes on this machine, started at the first tasks (:func:`start_method`).
 
-    Use as a context manager; calling it submits every task at once and yields the results in
-    task order (put the costliest tasks first for the best balance).
+    Use as a context manager; calling it submits every task at once (before it returns) and
+    gives an iterator of the results in task order (put the costliest tasks first for the best
+    balance).
     """
 
     def __init__(self, workers: int) -> None:
@@ -94,9 +95,8 @@ class ProcessPool:
         if self._pool is None:  # made at the first tasks: a run that has none starts no process
             self._pool = ProcessPoolExecutor(max_workers=self.workers,
                                              mp_context=multiprocessing.get_context(start_method()))
-        futures = [self._pool.submit(function, *task) for task in tasks]
-        for future in futures:
-            yield future.result()
+        futures = [self._pool.submit(function, *task) for task in tasks]  # started now, collected later
+        return (future.result() for future in futures)
 
 
 class DaskCluster:
@@ -137,8 +137,7 @@ class DaskCluster:
             raise RuntimeError("DaskCluster is used outside its with block")
         # pure=False: equal tasks are still separate work (a series may hold two equal decks).
         futures = [self._client.submit(function, *task, pure=False) for task in tasks]
-        for future in futures:
-            yield future.result()
+        return (future.result() for future in futures)
 
 
 @contextlib.contextmanager

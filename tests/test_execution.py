@@ -72,6 +72,18 @@ def test_an_unreachable_scheduler_is_an_input_error():
             pass
 
 
+def test_dispersion_handed_to_a_pool_before_the_response_gives_the_serial_numbers():
+    """The driver starts the dispersion responses on the pool, solves the response section, then
+    collects: the same tasks, so the same bits as one after the other."""
+    deck = parse_deck('[atom]\nelement = "He"\n[response]\nmultipoles = [1, 2]\nfrequencies = [0.0, 0.1]\n'
+                      '[dispersion]\npartners = ["Be"]\nquadrature_points = 8\n')
+    alone = run_deck(deck)
+    with ProcessPool(2) as pool:
+        spread = run_deck(deck, map_tasks=pool)
+    assert spread.dispersion == alone.dispersion and spread.polarizability_tables == alone.polarizability_tables
+    assert spread.polarizabilities == alone.polarizabilities and spread.warnings == alone.warnings
+
+
 @pytest.mark.slow
 def test_a_pool_gives_the_serial_numbers_of_a_deck():
     deck = parse_deck(PAIR_DECK)

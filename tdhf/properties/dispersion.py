@@ -115,6 +115,7 @@ __all__ = [
     "compute_dispersion",
     "dispersion_table",
     "dispersion_pairs",
+    "start_dispersion",
     "imaginary_frequency_rule",
     "companion_points",
     "imaginary_polarizabilities",
@@ -435,19 +436,20 @@ def _response_task(
         return None, f"{type(err).__name__}: {err}"
 
 
-def _solve_systems(
+def _submit_systems(
     states: Sequence[GroundState], rules: _Rules, map_tasks: TaskMap | None, advance: Callable[[int], None],
     tolerances: ResponseTolerances = ResponseTolerances(),
-) -> tuple[list[_SystemResponse], list[str]]:
-    """alpha_L on the companion's nodes for each state; failures become NaN rows and notes.
+) -> Callable[[], tuple[list[_SystemResponse], list[str]]]:
+    """Hand alpha_L on the companion's nodes for each state to ``map_tasks``; return the collector.
 
-    With ``map_tasks`` the (system, multipole) tasks go to it, the costliest first; each task is
-    the same computation as in the serial loop, so the numbers are bit-identical (one BLAS thread
-    everywhere).
+    The collector gives the responses and the notes; failures become NaN rows and notes.  With
+    ``map_tasks`` the (system, multipole) tasks go to it, the costliest first (a process pool
+    starts them at once, so the caller may do other work before collecting); each task is the
+    same computation as in the serial loop, so the numbers are bit-identical (one BLAS thread
+    everywhere).  Without it the work is done when the collector is called.
     """
     alphas = [np.full((len(MULTIPOLES), rules.nodes.size + 1), np.nan) for _ in states]
     tasks = [(k, i) for k, state in enumerate(states) if state.converged for i in range(len(MULTIPOLES))]
-    advance(sum(len(MULTIPOLES) * rules.nodes.size for state in states if not state.converged))
     failures: dict[tuple[int, int], str] = {}
 
     def store(task: tuple[int, int], result: tuple[np.ndarray | None, str | None]) -> None:
@@ -458,34 +460,44 @@ def _solve_systems(
             failures[task] = failure
 
     if map_tasks is None or len(tasks) < 2:
-        for task in tasks:
-            done = [0]
+        def solve() -> None:
+            for task in tasks:
+                done = [0]
 
-            def step(count: int) -> None:
-                done[0] += count
-                advance(count)
+                def step(count: int) -> None:
+                    done[0] += count
+                    advance(count)
 
-            store(task, _response_task(states[task[0]], MULTIPOLES[task[1]], rules.nodes, step, tolerances))
-            advance(rules.nodes.size - done[0])  # the nodes a failed solve skipped
+                store(task, _response_task(states[task[0]], MULTIPOLES[task[1]], rules.nodes, step, tolerances))
+                advance(rules.nodes.size - done[0])  # the nodes a failed solve skipped
     else:
         # Cost of a solve ~ grid points^2 x subshells, and it grows with the multipole (more channels):
         # the costliest first, so that the last tasks to start are the short ones (measured on
         # two workers, a Rn deck's dispersion 5.2 -> 4.9 s against the multipoles in ascending order).
         ordered = sorted(tasks, key=lambda t: (-states[t[0]].grid_points ** 2 * len(states[t[0]].orbitals), -t[1]))
         arguments = [(states[k], MULTIPOLES[i], rules.nodes, None, tolerances) for k, i in ordered]
-        for task, result in zip(ordered, map_tasks(_response_task, arguments)):
-            store(task, result)
-            advance(rules.nodes.size)
-    notes = []
-    for k, state in enumerate(states):
-        name = state.system.name
-        if not state.converged:
-            notes.append(f"dispersion: {name}: skipped; its ground state did not converge")
-        for i, multipole in enumerate(MULTIPOLES):
-            if (k, i) in failures:
-                notes.append(f"dispersion: {name}: the L={multipole} response failed ({failures[k, i]});"
-                             f" its pairs get NaN coefficients")
-    return [_SystemResponse(state.system.name, alpha) for state, alpha in zip(states, alphas)], notes
+        results = map_tasks(_response_task, arguments)
+
+        def solve() -> None:
+            for task, result in zip(ordered, results):
+                store(task, result)
+                advance(rules.nodes.size)
+
+    def collect() -> tuple[list[_SystemResponse], list[str]]:
+        advance(sum(len(MULTIPOLES) * rules.nodes.size for state in states if not state.converged))
+        solve()
+        notes = []
+        for k, state in enumerate(states):
+            name = state.system.name
+            if not state.converged:
+                notes.append(f"dispersion: {name}: skipped; its ground state did not converge")
+            for i, multipole in enumerate(MULTIPOLES):
+                if (k, i) in failures:
+                    notes.append(f"dispersion: {name}: the L={multipole} response failed ({failures[k, i]});"
+                                 f" its pairs get NaN coefficients")
+        return [_SystemResponse(state.system.name, alpha) for state, alpha in zip(states, alphas)], notes
+
+    return collect
 
 
 def _pair(a: _SystemResponse, b: _SystemResponse, rules: _Rules, notes: list[str]) -> DispersionCoefficients:
@@ -531,6 +543,18 @@ def _run(
     tolerances: ResponseTolerances = ResponseTolerances(),
 ) -> DispersionResults:
     """Solve each distinct state (by identity) once, then sum every pair of indices into ``states``."""
+    return _start(states, pairs, points, progress, map_tasks, tolerances)()
+
+
+def _start(
+    states: Sequence[GroundState],
+    pairs: Sequence[tuple[int, int]],
+    points: int,
+    progress: Progress | None,
+    map_tasks: TaskMap | None,
+    tolerances: ResponseTolerances = ResponseTolerances(),
+) -> Callable[[], DispersionResults]:
+    """:func:`_run` in two steps: hand the responses to ``map_tasks`` now, sum the pairs when called."""
     _check_options(points)
     rules = _Rules.make(points)
     position: dict[int, int] = {}  # id(state) -> index into `unique`
@@ -548,12 +572,17 @@ def _run(
             if progress is not None:
                 progress(done[0], total)
 
-    responses, notes = _solve_systems(unique, rules, map_tasks, advance, tolerances)
-    by_index = [responses[position[id(state)]] for state in states]
-    rows = [_pair(by_index[i], by_index[j], rules, notes) for i, j in pairs]
-    for note in notes:
-        warnings.warn(note, RuntimeWarning, stacklevel=3)
-    return DispersionResults(tuple(rows), tuple(notes), tuple(_table(r, rules) for r in responses))
+    collect = _submit_systems(unique, rules, map_tasks, advance, tolerances)
+
+    def finish() -> DispersionResults:
+        responses, notes = collect()
+        by_index = [responses[position[id(state)]] for state in states]
+        rows = [_pair(by_index[i], by_index[j], rules, notes) for i, j in pairs]
+        for note in notes:
+            warnings.warn(note, RuntimeWarning, stacklevel=4)
+        return DispersionResults(tuple(rows), tuple(notes), tuple(_table(r, rules) for r in responses))
+
+    return finish
 
 
 # --------------------------------------------------------------------------------------------
@@ -634,8 +663,27 @@ def dispersion_pairs(
     Each system's response is solved once however many pairs it is in.  Parameters, returns and
     errors as :func:`compute_dispersion`; an index outside ``ground_states`` is an InputError.
     """
+    return start_dispersion(ground_states, pairs, quadrature_points, progress, map_tasks=map_tasks,
+                            tolerances=tolerances)()
+
+
+def start_dispersion(
+    ground_states: Sequence[GroundState],
+    pairs: Sequence[tuple[int, int]],
+    quadrature_points: int = DEFAULT_QUADRATURE_POINTS,
+    progress: Progress | None = None,
+    *,
+    map_tasks: TaskMap | None = None,
+    tolerances: ResponseTolerances = ResponseTolerances(),
+) -> Callable[[], DispersionResults]:
+    """:func:`dispersion_pairs` in two steps, for a caller with other work to hand to the same task map.
+
+    Returns at once after handing the responses to ``map_tasks`` (a process pool starts them
+    then); calling the returned function waits for them and gives the results.  Without a task
+    map the responses are solved when it is called.  Same numbers as :func:`dispersion_pairs`.
+    """
     n = len(ground_states)
     for number, (i, j) in enumerate(pairs):
         if not (0 <= i < n and 0 <= j < n):
             raise InputError(f"dispersion.pairs[{number}]: ({i}, {j}) is not a pair of the {n} systems")
-    return _run(tuple(ground_states), list(pairs), quadrature_points, progress, map_tasks, tolerances)
+    return _start(tuple(ground_states), list(pairs), quadrature_points, progress, map_tasks, tolerances)
