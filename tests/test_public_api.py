@@ -69,6 +69,16 @@ def test_the_command_line_imports_no_numerics_until_a_command_runs():
     assert loaded.strip() == "[]"
 
 
+def test_the_installed_version_is_the_one_in_the_package():
+    """Common practice, no source: pyproject.toml reads the version from tdhf.version, so the
+    metadata of the installation and the version written into every result agree."""
+    import importlib.metadata
+
+    from tdhf.version import VERSION, program_info
+
+    assert importlib.metadata.version("tdhf") == VERSION == program_info().version
+
+
 def test_the_codata_factors_load_when_first_used():
     """Common practice, no source: importing scipy.constants costs ~0.1 s of start-up, paid only by
     a run that converts a unit; the factors then are scipy's CODATA values."""
