@@ -28,7 +28,9 @@ from tdhf.numerics.tasks import TaskMap
 from tdhf.properties.dispersion import (
     DispersionCoefficients,
     ImaginaryFrequencyTable,
+    partner_pairs,
     start_dispersion,
+    table_pairs,
 )
 from tdhf.properties.polarizability import DipoleShielding, Polarizability, QuadrupoleShielding
 from tdhf.properties.photoionization_rows import (
@@ -294,10 +296,11 @@ def run_deck(deck: Deck, progress: Progress | None = None, map_tasks: TaskMap | 
         own_notes += [f"{name}: skipped; the ground state of {system.name} did not converge"
                       for name in ("response", "dispersion") if getattr(deck, name) is not None]
     else:
-        # With a task map the dispersion responses are handed to it first and run while the
-        # response section is solved (on two workers a Rn deck's workers no longer idle between them).
+        # The dispersion responses are handed to the task map first, so that a pool runs them while
+        # the response section is solved (on two workers a Rn deck's workers no longer idle between
+        # them); serially they run when collected, after it.
         finish_dispersion = (_start_dispersion(ground_state, deck.dispersion, deck, report, map_tasks)
-                             if deck.dispersion is not None and map_tasks is not None else None)
+                             if deck.dispersion is not None else None)
         if deck.response is not None:
             report(f"response of {system.name}")
             response_fields, library_notes, driver_notes = _run_response(ground_state, deck.response, deck.tolerances,
@@ -305,9 +308,7 @@ def run_deck(deck: Deck, progress: Progress | None = None, map_tasks: TaskMap | 
             fields |= response_fields
             notes += library_notes
             own_notes += driver_notes
-        if deck.dispersion is not None:
-            if finish_dispersion is None:
-                finish_dispersion = _start_dispersion(ground_state, deck.dispersion, deck, report, map_tasks)
+        if finish_dispersion is not None:
             dispersion_fields, library_notes = finish_dispersion()
             fields |= dispersion_fields
             notes += library_notes
@@ -381,7 +382,7 @@ def _start_dispersion(
 
     if section.partners:
         states = [ground_state, *others]
-        pairs = [(0, k) for k in range(1, len(states))]
+        pairs = partner_pairs(len(states))
         counter = None
     elif section.pairs:
         states = others
@@ -390,7 +391,7 @@ def _start_dispersion(
         counter = count
     else:
         states = [ground_state] + [state for state in others if state is not ground_state]
-        pairs = [(i, j) for i in range(len(states)) for j in range(i, len(states))]
+        pairs = table_pairs(len(states))
         counter = count
     results = start_dispersion(states, pairs, quadrature_points=section.quadrature_points, progress=counter,
                                tolerances=deck.tolerances, map_tasks=map_tasks)

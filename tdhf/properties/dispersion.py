@@ -116,6 +116,8 @@ __all__ = [
     "dispersion_table",
     "dispersion_pairs",
     "start_dispersion",
+    "partner_pairs",
+    "table_pairs",
     "imaginary_frequency_rule",
     "companion_points",
     "imaginary_polarizabilities",
@@ -627,7 +629,7 @@ def compute_dispersion(
         If ``quadrature_points`` is not an integer in QUADRATURE_RANGE.
     """
     states = (ground_state, *partners)
-    return _run(states, [(0, k) for k in range(1, len(states))], quadrature_points, progress, map_tasks, tolerances)
+    return _run(states, partner_pairs(len(states)), quadrature_points, progress, map_tasks, tolerances)
 
 
 def dispersion_table(
@@ -644,9 +646,18 @@ def dispersion_table(
     Each system's response is solved once.  Parameters, returns and errors as
     :func:`compute_dispersion`.
     """
-    n = len(ground_states)
-    pairs = [(i, j) for i in range(n) for j in range(i, n)]
-    return _run(tuple(ground_states), pairs, quadrature_points, progress, map_tasks, tolerances)
+    return _run(tuple(ground_states), table_pairs(len(ground_states)), quadrature_points, progress, map_tasks,
+                tolerances)
+
+
+def partner_pairs(count: int) -> list[tuple[int, int]]:
+    """The pairs of :func:`compute_dispersion`: system 0 with each of the other ``count - 1``."""
+    return [(0, k) for k in range(1, count)]
+
+
+def table_pairs(count: int) -> list[tuple[int, int]]:
+    """The pairs of :func:`dispersion_table`: (i, j) for i <= j, row-major, n(n+1)/2 of them."""
+    return [(i, j) for i in range(count) for j in range(i, count)]
 
 
 def dispersion_pairs(
